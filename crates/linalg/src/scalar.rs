@@ -1,0 +1,227 @@
+//! The [`Scalar`] trait: one code path for `f64` and `Complex64`.
+
+use crate::LinalgError;
+use crate::dense::DenseMatrix;
+use faer::linalg::solvers::{PartialPivLu, Solve};
+use faer::{MatMut, MatRef};
+use num_complex::Complex64;
+use std::fmt::Debug;
+use std::iter::Sum;
+use std::ops::{Add, AddAssign, Div, Mul, MulAssign, Neg, Sub, SubAssign};
+
+/// Thin SVD factors `(W, σ, Z)` of `A = W diag(σ) Zᴴ`.
+pub type Svd<T> = (DenseMatrix<T>, Vec<f64>, DenseMatrix<T>);
+
+/// A field element the engine computes with: `f64` or [`Complex64`].
+///
+/// Besides arithmetic, a scalar knows its conjugate and modulus, and supplies the dense kernels
+/// the engine needs (thin QR, thin SVD, LU). Those kernels are implemented with faer for the two
+/// concrete types only.
+pub trait Scalar:
+    Copy
+    + Clone
+    + Send
+    + Sync
+    + Debug
+    + Default
+    + PartialEq
+    + Add<Output = Self>
+    + Sub<Output = Self>
+    + Mul<Output = Self>
+    + Div<Output = Self>
+    + Neg<Output = Self>
+    + AddAssign
+    + SubAssign
+    + MulAssign
+    + Sum
+    + 'static
+{
+    /// Short name used in reports: `"f64"` or `"complex64"`.
+    const NAME: &'static str;
+    /// Bytes one stored entry takes (8 for `f64`, 16 for `Complex64`).
+    const BYTES: usize = std::mem::size_of::<Self>();
+    /// Factorisation object of [`Scalar::lu_factor`].
+    type Lu: Send + Sync;
+
+    /// Additive identity.
+    fn zero() -> Self;
+    /// Multiplicative identity.
+    fn one() -> Self;
+    /// The real number `x` as a scalar.
+    fn from_f64(x: f64) -> Self;
+    /// Complex conjugate (identity for `f64`).
+    fn conj(self) -> Self;
+    /// Modulus `|x|`.
+    fn abs(self) -> f64;
+    /// Squared modulus `|x|²` (no square root).
+    fn abs2(self) -> f64;
+    /// Real part.
+    fn re(self) -> f64;
+    /// `true` when every component is finite.
+    fn is_finite(self) -> bool;
+    /// Product with a real number.
+    fn scale(self, s: f64) -> Self;
+
+    /// Thin QR of an `m × k` matrix (`m ≥ k` or not): returns `(Q, R)` with `Q` of size
+    /// `m × min(m,k)` with orthonormal columns and `R` upper trapezoidal, `A = Q R`.
+    fn qr_thin(a: &DenseMatrix<Self>) -> (DenseMatrix<Self>, DenseMatrix<Self>);
+    /// Thin SVD `A = W diag(σ) Zᴴ`: returns `(W, σ, Z)` with σ non-increasing.
+    fn svd_thin(a: &DenseMatrix<Self>) -> Result<Svd<Self>, LinalgError>;
+    /// Singular values of `A`, non-increasing.
+    fn singular_values(a: &DenseMatrix<Self>) -> Result<Vec<f64>, LinalgError>;
+    /// LU factorisation with partial pivoting of a square matrix; returns the factorisation and
+    /// the smallest modulus of `U`'s diagonal (a cheap singularity indicator).
+    fn lu_factor(a: &DenseMatrix<Self>) -> (Self::Lu, f64);
+    /// Solves `A X = B` in place for an `n × nrhs` column-major right-hand side.
+    fn lu_solve_in_place(lu: &Self::Lu, n: usize, nrhs: usize, rhs: &mut [Self]);
+    /// `C ← C + A B` (GEMM by faer, sequential: callers parallelise over blocks).
+    fn gemm_add(c: &mut DenseMatrix<Self>, a: &DenseMatrix<Self>, b: &DenseMatrix<Self>);
+}
+
+fn faer_ref<T: Copy>(a: &DenseMatrix<T>) -> MatRef<'_, T> {
+    MatRef::from_column_major_slice(a.as_slice(), a.nrows(), a.ncols())
+}
+
+fn faer_mut<T: Copy>(a: &mut DenseMatrix<T>) -> MatMut<'_, T> {
+    let (m, n) = (a.nrows(), a.ncols());
+    MatMut::from_column_major_slice_mut(a.as_mut_slice(), m, n)
+}
+
+fn from_faer<T: Copy>(m: MatRef<'_, T>) -> DenseMatrix<T> {
+    DenseMatrix::from_fn(m.nrows(), m.ncols(), |i, j| m[(i, j)])
+}
+
+macro_rules! dense_kernels {
+    ($t:ty) => {
+        type Lu = PartialPivLu<$t>;
+
+        fn qr_thin(a: &DenseMatrix<Self>) -> (DenseMatrix<Self>, DenseMatrix<Self>) {
+            let qr = faer_ref(a).qr();
+            (from_faer(qr.compute_thin_Q().as_ref()), from_faer(qr.thin_R()))
+        }
+
+        fn svd_thin(a: &DenseMatrix<Self>) -> Result<Svd<Self>, LinalgError> {
+            let svd = faer_ref(a)
+                .thin_svd()
+                .map_err(|_| LinalgError::SvdNoConvergence { rows: a.nrows(), cols: a.ncols() })?;
+            let s = svd.S().column_vector();
+            let sigma = (0..s.nrows()).map(|i| s[i].abs()).collect();
+            Ok((from_faer(svd.U()), sigma, from_faer(svd.V())))
+        }
+
+        fn singular_values(a: &DenseMatrix<Self>) -> Result<Vec<f64>, LinalgError> {
+            faer_ref(a)
+                .singular_values()
+                .map_err(|_| LinalgError::SvdNoConvergence { rows: a.nrows(), cols: a.ncols() })
+        }
+
+        fn lu_factor(a: &DenseMatrix<Self>) -> (Self::Lu, f64) {
+            let lu = faer_ref(a).partial_piv_lu();
+            let u = lu.U();
+            let n = u.nrows().min(u.ncols());
+            let mut min_pivot = f64::INFINITY;
+            for i in 0..n {
+                let p = Scalar::abs(u[(i, i)]);
+                min_pivot = if p.is_finite() { min_pivot.min(p) } else { 0.0 };
+            }
+            (lu, if n == 0 { 0.0 } else { min_pivot })
+        }
+
+        fn lu_solve_in_place(lu: &Self::Lu, n: usize, nrhs: usize, rhs: &mut [Self]) {
+            lu.solve_in_place(MatMut::from_column_major_slice_mut(rhs, n, nrhs));
+        }
+
+        fn gemm_add(c: &mut DenseMatrix<Self>, a: &DenseMatrix<Self>, b: &DenseMatrix<Self>) {
+            faer::linalg::matmul::matmul(
+                faer_mut(c),
+                faer::Accum::Add,
+                faer_ref(a),
+                faer_ref(b),
+                <$t as Scalar>::one(),
+                faer::Par::Seq,
+            );
+        }
+    };
+}
+
+impl Scalar for f64 {
+    const NAME: &'static str = "f64";
+    #[inline(always)]
+    fn zero() -> Self {
+        0.0
+    }
+    #[inline(always)]
+    fn one() -> Self {
+        1.0
+    }
+    #[inline(always)]
+    fn from_f64(x: f64) -> Self {
+        x
+    }
+    #[inline(always)]
+    fn conj(self) -> Self {
+        self
+    }
+    #[inline(always)]
+    fn abs(self) -> f64 {
+        f64::abs(self)
+    }
+    #[inline(always)]
+    fn abs2(self) -> f64 {
+        self * self
+    }
+    #[inline(always)]
+    fn re(self) -> f64 {
+        self
+    }
+    #[inline(always)]
+    fn is_finite(self) -> bool {
+        f64::is_finite(self)
+    }
+    #[inline(always)]
+    fn scale(self, s: f64) -> Self {
+        self * s
+    }
+    dense_kernels!(f64);
+}
+
+impl Scalar for Complex64 {
+    const NAME: &'static str = "complex64";
+    #[inline(always)]
+    fn zero() -> Self {
+        Complex64::new(0.0, 0.0)
+    }
+    #[inline(always)]
+    fn one() -> Self {
+        Complex64::new(1.0, 0.0)
+    }
+    #[inline(always)]
+    fn from_f64(x: f64) -> Self {
+        Complex64::new(x, 0.0)
+    }
+    #[inline(always)]
+    fn conj(self) -> Self {
+        Complex64::conj(&self)
+    }
+    #[inline(always)]
+    fn abs(self) -> f64 {
+        self.norm()
+    }
+    #[inline(always)]
+    fn abs2(self) -> f64 {
+        self.norm_sqr()
+    }
+    #[inline(always)]
+    fn re(self) -> f64 {
+        self.re
+    }
+    #[inline(always)]
+    fn is_finite(self) -> bool {
+        self.re.is_finite() && self.im.is_finite()
+    }
+    #[inline(always)]
+    fn scale(self, s: f64) -> Self {
+        Complex64::new(self.re * s, self.im * s)
+    }
+    dense_kernels!(Complex64);
+}

@@ -1,0 +1,20 @@
+//! rafter: planar-interconnect field problems by the method of moments, compressed as an
+//! H-matrix (ACA + recompression) and solved by restarted GMRES.
+//!
+//! This facade re-exports the engine crates; the `rafter` binary is a thin command line on top.
+//! - [`linalg`]: scalars, dense kernels, the entry-source seam;
+//! - [`cluster`]: cluster tree, admissibility, block tree;
+//! - [`lowrank`]: ACA and recompression;
+//! - [`hmatrix`]: the H-matrix, its matvec, statistics and dense reference;
+//! - [`krylov`]: GMRES and preconditioners;
+//! - [`pointkernel`]: point-kernel test problems;
+//! - [`bench`]: the engine benchmark behind `rafter bench-engine`.
+
+pub mod bench;
+
+pub use rafter_cluster as cluster;
+pub use rafter_hmatrix as hmatrix;
+pub use rafter_krylov as krylov;
+pub use rafter_linalg as linalg;
+pub use rafter_lowrank as lowrank;
+pub use rafter_pointkernel as pointkernel;
