@@ -65,6 +65,14 @@ pub trait Scalar:
     /// Thin QR of an `m × k` matrix (`m ≥ k` or not): returns `(Q, R)` with `Q` of size
     /// `m × min(m,k)` with orthonormal columns and `R` upper trapezoidal, `A = Q R`.
     fn qr_thin(a: &DenseMatrix<Self>) -> (DenseMatrix<Self>, DenseMatrix<Self>);
+    /// Householder QR in place: on return `a` (`m × k`) holds `R` in its upper triangle and the
+    /// Householder vectors below it; the returned matrix holds the block reflector
+    /// coefficients. Together they represent the full orthogonal `Q` of `A = Q R` (see
+    /// [`Scalar::householder_apply`]). Sequential: callers parallelise over blocks.
+    fn qr_in_place(a: &mut DenseMatrix<Self>) -> DenseMatrix<Self>;
+    /// `x ← Q x` for the `Q` of a [`Scalar::qr_in_place`] factorisation (`factors`, `coeff`);
+    /// `x` has as many rows as the factorised matrix.
+    fn householder_apply(factors: &DenseMatrix<Self>, coeff: &DenseMatrix<Self>, x: &mut DenseMatrix<Self>);
     /// Thin SVD `A = W diag(σ) Zᴴ`: returns `(W, σ, Z)` with σ non-increasing.
     fn svd_thin(a: &DenseMatrix<Self>) -> Result<Svd<Self>, LinalgError>;
     /// Singular values of `A`, non-increasing.
@@ -98,6 +106,53 @@ macro_rules! dense_kernels {
         fn qr_thin(a: &DenseMatrix<Self>) -> (DenseMatrix<Self>, DenseMatrix<Self>) {
             let qr = faer_ref(a).qr();
             (from_faer(qr.compute_thin_Q().as_ref()), from_faer(qr.thin_R()))
+        }
+
+        fn qr_in_place(a: &mut DenseMatrix<Self>) -> DenseMatrix<Self> {
+            use faer::linalg::qr::no_pivoting::factor;
+            let (m, k) = (a.nrows(), a.ncols());
+            let bs = factor::recommended_block_size::<$t>(m, k).max(1);
+            let mut coeff = DenseMatrix::zeros(bs, m.min(k));
+            if m.min(k) == 0 {
+                return coeff;
+            }
+            let req = factor::qr_in_place_scratch::<$t>(m, k, bs, faer::Par::Seq, Default::default());
+            let mut mem = faer::dyn_stack::MemBuffer::new(req);
+            factor::qr_in_place(
+                faer_mut(a),
+                faer_mut(&mut coeff),
+                faer::Par::Seq,
+                faer::dyn_stack::MemStack::new(&mut mem),
+                Default::default(),
+            );
+            coeff
+        }
+
+        fn householder_apply(
+            factors: &DenseMatrix<Self>,
+            coeff: &DenseMatrix<Self>,
+            x: &mut DenseMatrix<Self>,
+        ) {
+            use faer::linalg::householder;
+            let size = factors.nrows().min(factors.ncols());
+            if size == 0 || x.ncols() == 0 {
+                return;
+            }
+            let basis = faer_ref(factors).subcols(0, size);
+            let req = householder::apply_block_householder_sequence_on_the_left_in_place_scratch::<$t>(
+                factors.nrows(),
+                coeff.nrows(),
+                x.ncols(),
+            );
+            let mut mem = faer::dyn_stack::MemBuffer::new(req);
+            householder::apply_block_householder_sequence_on_the_left_in_place_with_conj(
+                basis,
+                faer_ref(coeff),
+                faer::Conj::No,
+                faer_mut(x),
+                faer::Par::Seq,
+                faer::dyn_stack::MemStack::new(&mut mem),
+            );
         }
 
         fn svd_thin(a: &DenseMatrix<Self>) -> Result<Svd<Self>, LinalgError> {
