@@ -46,9 +46,9 @@ pub fn recompress<T: Scalar>(block: LowRank<T>, eps: f64) -> Result<LowRank<T>, 
     }
     let mut uu = DenseMatrix::zeros(m, r);
     let mut vv = DenseMatrix::zeros(n, r);
-    for l in 0..r {
+    for (l, &s) in sigma.iter().enumerate().take(r) {
         for i in 0..su {
-            uu.set(i, l, w.get(i, l).scale(sigma[l]));
+            uu.set(i, l, w.get(i, l).scale(s));
         }
         for j in 0..sv {
             vv.set(j, l, z.get(j, l).conj());
