@@ -3,7 +3,7 @@
 //! solve a system with GMRES.
 
 use rafter_hmatrix::{HMatrix, HOptions, reference};
-use rafter_krylov::{GmresOptions, gmres};
+use rafter_krylov::{GmresOptions, gmres_monitored};
 use rafter_linalg::{CountingSource, DenseLu, EntrySource, Scalar};
 use rafter_pointkernel::{HelmholtzPlate, LaplacePlate, Plate};
 use serde::Serialize;
@@ -122,11 +122,16 @@ pub struct SolveReport {
     pub dense_lu_s: Option<f64>,
 }
 
-/// Runs the benchmark. `progress` receives (blocks done, total) during the build.
-pub fn run(
-    s: &BenchSettings,
-    progress: Option<&(dyn Fn(usize, usize) + Sync)>,
-) -> anyhow::Result<BenchReport> {
+/// Progress callbacks of [`run`].
+pub struct Progress<'a> {
+    /// Called with (blocks done, total blocks) during the H-matrix build.
+    pub build: &'a (dyn Fn(usize, usize) + Sync),
+    /// Called with (iteration, relative residual) during GMRES.
+    pub gmres: &'a mut dyn FnMut(usize, f64),
+}
+
+/// Runs the benchmark, reporting progress through `progress`.
+pub fn run(s: &BenchSettings, progress: Progress<'_>) -> anyhow::Result<BenchReport> {
     let plate = Plate::new(s.n, 1.0)?;
     let opts = HOptions { tolerance: s.tolerance, eta: s.eta, leaf_size: s.leaf };
     opts.validate()?;
@@ -158,12 +163,12 @@ fn run_with<T: Scalar, S: EntrySource<T>>(
     plate: &Plate,
     s: &BenchSettings,
     opts: &HOptions,
-    progress: Option<&(dyn Fn(usize, usize) + Sync)>,
+    progress: Progress<'_>,
 ) -> anyhow::Result<BenchReport> {
     let n = plate.len();
     let counting = CountingSource::new(src);
     let t = Instant::now();
-    let h = HMatrix::build_square(&counting, &plate.points, opts, progress)?;
+    let h = HMatrix::build_square(&counting, &plate.points, opts, Some(progress.build))?;
     let build_s = t.elapsed().as_secs_f64();
     let entries_requested = counting.count();
 
@@ -198,7 +203,7 @@ fn run_with<T: Scalar, S: EntrySource<T>>(
         let mut xs = vec![T::zero(); n];
         let gopts = GmresOptions { restart: 50, tolerance: tol, max_iterations: 2000 };
         let t = Instant::now();
-        let rep = gmres(&h, &pc, &b, &mut xs, &gopts)?;
+        let rep = gmres_monitored(&h, &pc, &b, &mut xs, &gopts, progress.gmres)?;
         let solve_s = t.elapsed().as_secs_f64();
         let (mut rel_diff_dense_lu, mut dense_lu_s) = (None, None);
         if let Some(a) = dense.take() {

@@ -10,6 +10,8 @@
 //! - [`pointkernel`]: point-kernel test problems;
 //! - [`bench`]: the engine benchmark behind `rafter bench-engine`.
 
+#![warn(missing_docs)]
+
 pub mod bench;
 
 pub use rafter_cluster as cluster;

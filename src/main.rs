@@ -100,7 +100,7 @@ fn run(cli: Cli) -> anyhow::Result<()> {
                 b.set_message("building H-matrix");
                 b
             });
-            let cb = |done: usize, total: usize| {
+            let build = |done: usize, total: usize| {
                 if let Some(b) = &bar
                     && (done == 1 || done.is_multiple_of(256) || done == total)
                 {
@@ -108,9 +108,20 @@ fn run(cli: Cli) -> anyhow::Result<()> {
                     b.set_position(done as u64);
                 }
             };
-            let report = bench::run(&settings, Some(&cb));
+            let mut gmres = |it: usize, res: f64| {
+                if let Some(b) = &bar {
+                    b.set_message(format!("GMRES iteration {it}, relative residual {res:.2e}"));
+                    b.tick();
+                }
+            };
+            let report = bench::run(&settings, bench::Progress { build: &build, gmres: &mut gmres });
             if let Some(b) = &bar {
                 b.finish_and_clear();
+            }
+            if !cli.quiet
+                && let Ok(Some(s)) = report.as_ref().map(|r| r.solve.as_ref())
+            {
+                eprintln!("GMRES: {} iterations, relative residual {:.2e}", s.iterations, s.residual);
             }
             println!("{}", serde_json::to_string_pretty(&report?)?);
             Ok(())

@@ -11,6 +11,8 @@
 //! Modules, one concept each: [`bbox`] (axis-aligned boxes), [`tree`] (the cluster tree),
 //! [`admissibility`] (the far-field condition), [`blocktree`] (the block partition).
 
+#![warn(missing_docs)]
+
 pub mod admissibility;
 pub mod bbox;
 pub mod blocktree;

@@ -11,6 +11,8 @@
 //! build and its matvecs), [`stats`] (per-block statistics and totals), [`reference`] (dense
 //! assembly, memory estimates, exact error of every block).
 
+#![warn(missing_docs)]
+
 pub mod hmatrix;
 pub mod options;
 pub mod reference;

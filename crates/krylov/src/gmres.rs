@@ -83,6 +83,19 @@ pub fn gmres<T: Scalar, A: LinearOperator<T> + ?Sized, M: Preconditioner<T> + ?S
     x: &mut [T],
     opts: &GmresOptions,
 ) -> Result<GmresReport, KrylovError> {
+    gmres_monitored(a, m_inv, b, x, opts, &mut |_, _| {})
+}
+
+/// [`gmres`] that also calls `monitor(iteration, relative residual)` after every iteration
+/// (the residual from the Givens recurrence), for progress displays.
+pub fn gmres_monitored<T: Scalar, A: LinearOperator<T> + ?Sized, M: Preconditioner<T> + ?Sized>(
+    a: &A,
+    m_inv: &M,
+    b: &[T],
+    x: &mut [T],
+    opts: &GmresOptions,
+    monitor: &mut dyn FnMut(usize, f64),
+) -> Result<GmresReport, KrylovError> {
     opts.validate()?;
     let n = a.dim();
     for (what, got) in
@@ -173,6 +186,7 @@ pub fn gmres<T: Scalar, A: LinearOperator<T> + ?Sized, M: Preconditioner<T> + ?S
             iterations += 1;
             let est = g[j + 1].abs() / bnorm;
             history.push(est);
+            monitor(iterations, est);
             if !est.is_finite() {
                 return Err(KrylovError::NonFinite { iteration: iterations });
             }

@@ -14,11 +14,13 @@
 //! Modules, one concept each: [`operator`] (the two seams), [`gmres`](mod@gmres) (the solver),
 //! [`precond`] (preconditioners).
 
+#![warn(missing_docs)]
+
 pub mod gmres;
 pub mod operator;
 pub mod precond;
 
-pub use gmres::{GmresOptions, GmresReport, gmres, solve_many};
+pub use gmres::{GmresOptions, GmresReport, gmres, gmres_monitored, solve_many};
 pub use operator::{Identity, LinearOperator, Preconditioner};
 pub use precond::BlockDiagonal;
 

@@ -15,6 +15,8 @@
 //!   and [`DenseLu`], an LU factorisation with partial pivoting;
 //! - [`source`]: the [`EntrySource`] trait and [`CountingSource`], which counts requested entries.
 
+#![warn(missing_docs)]
+
 pub mod dense;
 pub mod scalar;
 pub mod source;

@@ -14,6 +14,8 @@
 //! average. [`compress`] splits ε between the two stages (ACA at `ε·f`, truncation at
 //! `ε·(1 − f)`, `f` = [`ACA_SHARE`]) so that their sum stays within ε.
 
+#![warn(missing_docs)]
+
 pub mod aca;
 pub mod block;
 pub mod recompress;

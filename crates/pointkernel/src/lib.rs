@@ -17,6 +17,8 @@
 //!
 //! These sources know nothing of the engine: they only implement [`EntrySource`].
 
+#![warn(missing_docs)]
+
 use rafter_linalg::{Complex64, EntrySource};
 use std::f64::consts::PI;
 
