@@ -1,8 +1,10 @@
 //! The H-matrix type: build from an entry source, storage accounting, matvec.
 
+use crate::schedule::{Item, Schedule, schedule};
 use crate::stats::{BlockStats, HSummary};
 use crate::{HError, HOptions, reference};
 use rafter_cluster::{Admissibility, BlockKind, BlockTree, ClusterTree};
+use rafter_linalg::dense::axpy;
 use rafter_linalg::{DenseMatrix, EntrySource, Scalar};
 use rafter_lowrank::{Compressed, LowRank, compress};
 use rayon::prelude::*;
@@ -88,8 +90,8 @@ pub struct HMatrix<T> {
     row_tree: ClusterTree,
     col_tree: ClusterTree,
     blocks: Vec<HBlock<T>>,
-    /// Block ranges (into `blocks`, sorted by row) of roughly equal cost, one per parallel task.
-    tasks: Vec<Range<usize>>,
+    /// Row bands and their work: the parallel matvec schedule.
+    pub(crate) schedule: Schedule,
 }
 
 impl<T: Scalar> HMatrix<T> {
@@ -169,8 +171,8 @@ impl<T: Scalar> HMatrix<T> {
             })
             .collect::<Result<Vec<_>, HError>>()?;
         blocks.sort_by_key(|b| (b.rows.start, b.cols.start));
-        let tasks = balance(&blocks, 4 * rayon::current_num_threads());
-        Ok(Self { options: *options, row_tree, col_tree, blocks, tasks })
+        let schedule = schedule(&row_tree, &blocks, 8 * rayon::current_num_threads());
+        Ok(Self { options: *options, row_tree, col_tree, blocks, schedule })
     }
 
     /// Builds a square H-matrix whose rows and columns share the points `points`.
@@ -239,12 +241,12 @@ impl<T: Scalar> HMatrix<T> {
 
     /// `Y = H X` for `nrhs` vectors at once: `X` is `ncols × nrhs` and `Y` is `nrows × nrhs`,
     /// both column-major, original order. The blocks are streamed from memory once for all
-    /// vectors.
+    /// vectors; row bands run in parallel, each owning its rows of `Y`.
     pub fn matvec_multi(&self, x: &[T], y: &mut [T], nrhs: usize) -> Result<(), HError> {
         let (m, n) = (self.nrows(), self.ncols());
         check_len("input vectors X (ncols × nrhs)", n * nrhs, x.len())?;
         check_len("output vectors Y (nrows × nrhs)", m * nrhs, y.len())?;
-        // Gather into tree order.
+        // Gather X into tree order.
         let cperm = self.col_tree.perm();
         let mut xt = vec![T::zero(); n * nrhs];
         for r in 0..nrhs {
@@ -253,33 +255,78 @@ impl<T: Scalar> HMatrix<T> {
                 *d = xs[p];
             }
         }
-        let yt = self
-            .tasks
+        // Vᵀ x of the low-rank blocks that span several bands, once each (rank × nrhs).
+        let wide: Vec<Vec<T>> = self
+            .schedule
+            .wide
             .par_iter()
-            .map(|range| {
-                let mut acc = vec![T::zero(); m * nrhs];
+            .map(|&id| {
+                let b = &self.blocks[id];
+                let BlockData::LowRank(l) = &b.data else { unreachable!("wide blocks are low-rank") };
+                let k = l.rank();
+                let mut t = vec![T::zero(); k * nrhs];
+                for r in 0..nrhs {
+                    let xs = &xt[r * n + b.cols.start..r * n + b.cols.end];
+                    l.v.gemv_transpose(xs, &mut t[r * k..(r + 1) * k]);
+                }
+                t
+            })
+            .collect();
+        // Each band computes its rows of Y (band-local, nrhs columns) in parallel.
+        let bands: Vec<Vec<T>> = self
+            .schedule
+            .bands
+            .par_iter()
+            .map(|band| {
+                let len = band.rows.len();
+                let mut acc = vec![T::zero(); len * nrhs];
                 let mut tmp = Vec::new();
-                for b in &self.blocks[range.clone()] {
+                for item in &band.items {
                     for r in 0..nrhs {
-                        let xs = &xt[r * n + b.cols.start..r * n + b.cols.end];
-                        let ys = &mut acc[r * m + b.rows.start..r * m + b.rows.end];
-                        b.gemv_add(xs, ys, &mut tmp);
+                        let yb = &mut acc[r * len..(r + 1) * len];
+                        match *item {
+                            Item::Whole(id) => {
+                                let b = &self.blocks[id];
+                                let xs = &xt[r * n + b.cols.start..r * n + b.cols.end];
+                                let off = b.rows.start - band.rows.start;
+                                b.gemv_add(xs, &mut yb[off..off + b.rows.len()], &mut tmp);
+                            }
+                            Item::Part { block, ref rows, wide: w } => {
+                                let b = &self.blocks[block];
+                                let ys = &mut yb[rows.start - band.rows.start..rows.end - band.rows.start];
+                                let local = rows.start - b.rows.start..rows.end - b.rows.start;
+                                match (&b.data, w) {
+                                    (BlockData::LowRank(l), Some(w)) => {
+                                        let k = l.rank();
+                                        let t = &wide[w][r * k..(r + 1) * k];
+                                        for (c, &tc) in t.iter().enumerate() {
+                                            axpy(tc, &l.u.col(c)[local.clone()], ys);
+                                        }
+                                    }
+                                    (BlockData::Dense(d), _) => {
+                                        let xs = &xt[r * n + b.cols.start..r * n + b.cols.end];
+                                        for (c, &xc) in xs.iter().enumerate() {
+                                            axpy(xc, &d.col(c)[local.clone()], ys);
+                                        }
+                                    }
+                                    (BlockData::LowRank(_), None) => unreachable!("low-rank parts are wide"),
+                                }
+                            }
+                        }
                     }
                 }
                 acc
             })
-            .reduce_with(|mut a, b| {
-                for (ai, bi) in a.iter_mut().zip(&b) {
-                    *ai += *bi;
-                }
-                a
-            })
-            .unwrap_or_else(|| vec![T::zero(); m * nrhs]);
+            .collect();
+        // Scatter back to the caller's order.
         let rperm = self.row_tree.perm();
-        for r in 0..nrhs {
-            let (ys, yd) = (&yt[r * m..(r + 1) * m], &mut y[r * m..(r + 1) * m]);
-            for (&v, &p) in ys.iter().zip(rperm) {
-                yd[p] = v;
+        for (band, acc) in self.schedule.bands.iter().zip(&bands) {
+            let len = band.rows.len();
+            for r in 0..nrhs {
+                let yd = &mut y[r * m..(r + 1) * m];
+                for (&v, &p) in acc[r * len..(r + 1) * len].iter().zip(&rperm[band.rows.clone()]) {
+                    yd[p] = v;
+                }
             }
         }
         Ok(())
@@ -318,27 +365,6 @@ fn all_finite<T: Scalar>(d: &BlockData<T>) -> bool {
             l.u.as_slice().iter().all(|x| x.is_finite()) && l.v.as_slice().iter().all(|x| x.is_finite())
         }
     }
-}
-
-/// Splits the row-sorted blocks into about `parts` contiguous ranges of similar storage (the
-/// matvec cost is proportional to the bytes streamed).
-fn balance<T: Scalar>(blocks: &[HBlock<T>], parts: usize) -> Vec<Range<usize>> {
-    let total: usize = blocks.iter().map(|b| b.bytes() + 64).sum();
-    let target = total / parts.max(1) + 1;
-    let mut out = Vec::new();
-    let (mut start, mut acc) = (0, 0);
-    for (i, b) in blocks.iter().enumerate() {
-        acc += b.bytes() + 64;
-        if acc >= target {
-            out.push(start..i + 1);
-            start = i + 1;
-            acc = 0;
-        }
-    }
-    if start < blocks.len() {
-        out.push(start..blocks.len());
-    }
-    out
 }
 
 /// Storage estimate before the build: near-field blocks exactly, admissible blocks at a rank of

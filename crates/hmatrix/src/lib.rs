@@ -16,6 +16,7 @@
 pub mod hmatrix;
 pub mod options;
 pub mod reference;
+mod schedule;
 pub mod stats;
 
 pub use hmatrix::{BlockData, HBlock, HMatrix};
