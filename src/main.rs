@@ -5,11 +5,6 @@ use indicatif::{ProgressBar, ProgressStyle};
 use rafter::bench::{self, BenchSettings, Kernel};
 use std::process::ExitCode;
 
-// The build allocates and frees many mid-sized buffers from several threads at once; mimalloc
-// reuses them instead of returning pages to the OS and faulting fresh zeroed ones back in.
-#[global_allocator]
-static GLOBAL: mimalloc::MiMalloc = mimalloc::MiMalloc;
-
 /// Planar-interconnect field solver: method of moments compressed as an H-matrix.
 #[derive(Parser)]
 #[command(name = "rafter", version, about)]
