@@ -8,15 +8,24 @@
 //! - [`hmatrix`]: the H-matrix, its matvec, statistics and dense reference;
 //! - [`krylov`]: GMRES and preconditioners;
 //! - [`pointkernel`]: point-kernel test problems;
-//! - [`bench`]: the engine benchmark behind `rafter bench-engine`.
+//! - [`layout`]: layout files, stack-ups and meshes;
+//! - [`green`]: quasi-static Green's functions and panel integrals;
+//! - [`mom`]: collocation operator and capacitance;
+//! - [`bench`]: the engine benchmark behind `rafter bench-engine`;
+//! - [`extract`]: the capacitance job behind `rafter extract`; [`output`]: all-or-nothing files.
 
 #![warn(missing_docs)]
 
 pub mod bench;
+pub mod extract;
+pub mod output;
 
 pub use rafter_cluster as cluster;
+pub use rafter_green as green;
 pub use rafter_hmatrix as hmatrix;
 pub use rafter_krylov as krylov;
+pub use rafter_layout as layout;
 pub use rafter_linalg as linalg;
 pub use rafter_lowrank as lowrank;
+pub use rafter_mom as mom;
 pub use rafter_pointkernel as pointkernel;

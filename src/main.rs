@@ -3,7 +3,9 @@
 use clap::{Parser, Subcommand};
 use indicatif::{ProgressBar, ProgressStyle};
 use rafter::bench::{self, BenchSettings, Kernel};
+use std::path::PathBuf;
 use std::process::ExitCode;
+use std::time::Instant;
 
 /// Planar-interconnect field solver: method of moments compressed as an H-matrix.
 #[derive(Parser)]
@@ -18,6 +20,17 @@ struct Cli {
 
 #[derive(Subcommand)]
 enum Command {
+    /// Extract the capacitance matrix of a layout (TOML); writes capacitance.json, .csv and .cir.
+    Extract {
+        /// The layout file.
+        layout: PathBuf,
+        /// Output folder (created if missing; written all or nothing).
+        #[arg(short, long)]
+        out: PathBuf,
+        /// Solve densely (fill + LU) instead of by H-matrix: a reference for small layouts.
+        #[arg(long)]
+        dense: bool,
+    },
     /// Benchmark the H-matrix engine on a point-kernel plate problem; prints one JSON object.
     BenchEngine {
         /// Point kernel.
@@ -63,6 +76,7 @@ fn main() -> ExitCode {
 
 fn run(cli: Cli) -> anyhow::Result<()> {
     match cli.command {
+        Command::Extract { layout, out, dense } => run_extract(&layout, &out, dense, cli.quiet),
         Command::BenchEngine {
             kernel,
             n,
@@ -122,4 +136,70 @@ fn run(cli: Cli) -> anyhow::Result<()> {
             Ok(())
         }
     }
+}
+
+fn run_extract(
+    path: &std::path::Path,
+    out: &std::path::Path,
+    dense: bool,
+    quiet: bool,
+) -> anyhow::Result<()> {
+    let t = Instant::now();
+    let layout = rafter::layout::load(path)?;
+    let parse_s = t.elapsed().as_secs_f64();
+    let bar = (!quiet).then(|| {
+        let b = ProgressBar::new(0);
+        b.set_style(
+            ProgressStyle::with_template("{msg} [{bar:40}] {pos}/{len} ({elapsed})")
+                .expect("static template")
+                .progress_chars("=> "),
+        );
+        b
+    });
+    let nets: Vec<String> = layout.nets.iter().map(|n| n.name.clone()).collect();
+    let mut stage = |s: &str| {
+        if let Some(b) = &bar {
+            b.set_message(s.to_string());
+            b.set_length(0);
+            b.set_position(0);
+        }
+    };
+    let build = |done: usize, total: usize| {
+        if let Some(b) = &bar
+            && (done == 1 || done.is_multiple_of(256) || done == total)
+        {
+            b.set_length(total as u64);
+            b.set_position(done as u64);
+        }
+    };
+    let mut gmres = |net: usize, it: usize, res: f64| {
+        if let Some(b) = &bar {
+            b.set_length(nets.len() as u64);
+            b.set_position(net as u64);
+            b.set_message(format!("solving net {} (GMRES iteration {it}, residual {res:.1e})", nets[net]));
+        }
+    };
+    let hooks = rafter::extract::Hooks { stage: &mut stage, build: &build, gmres: &mut gmres };
+    let result = rafter::extract::extract(&layout, parse_s, dense, hooks);
+    if let Some(b) = &bar {
+        b.finish_and_clear();
+    }
+    let x = result?;
+    rafter::extract::write_outputs(out, &x)?;
+    if !quiet {
+        eprint!("{}", rafter::extract::table_text(&x));
+        if let Some(g) = &x.gmres {
+            eprintln!("GMRES iterations per net: {:?} (target residual {:.1e})", g.iterations, g.tolerance);
+        }
+        if let Some(h) = &x.hmatrix {
+            eprintln!(
+                "H-matrix: {:.2} % of dense, {} MB, max rank {}",
+                100.0 * h.compression,
+                h.memory_bytes / 1_000_000,
+                h.max_rank
+            );
+        }
+        eprintln!("wrote {}/capacitance.{{json,csv,cir}} in {:.2} s", out.display(), x.timing.total_s);
+    }
+    Ok(())
 }

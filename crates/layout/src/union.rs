@@ -1,0 +1,165 @@
+//! Union of possibly overlapping rectangles into non-overlapping ones, and snapping of nearly
+//! equal coordinates.
+
+use std::collections::HashMap;
+
+use crate::rect::Rect;
+
+/// Relative tolerance below which two coordinates of one face count as the same line.
+///
+/// Coordinates computed as, e.g., `10 + 0.15/2` and written as `10.075` differ by one rounding
+/// error; left apart they would create sliver cells. The tolerance is relative to the largest
+/// of the face's extent and coordinate magnitude.
+pub const SNAP_RELATIVE: f64 = 1e-9;
+
+/// Maps each coordinate to the first of a run of sorted coordinates that lie within a tolerance
+/// of their predecessor.
+#[derive(Debug)]
+pub(crate) struct Snapper {
+    values: Vec<f64>,
+    snapped: Vec<f64>,
+}
+
+impl Snapper {
+    /// Builds the map over `values` (any order, finite) with absolute tolerance `tol`.
+    pub fn new(mut values: Vec<f64>, tol: f64) -> Snapper {
+        values.sort_by(f64::total_cmp);
+        values.dedup();
+        let mut snapped = Vec::with_capacity(values.len());
+        for (i, &v) in values.iter().enumerate() {
+            if i > 0 && v - values[i - 1] <= tol {
+                let rep = snapped[i - 1];
+                snapped.push(rep);
+            } else {
+                snapped.push(v);
+            }
+        }
+        Snapper { values, snapped }
+    }
+
+    /// The representative of `v` (`v` itself if it was not among the values).
+    pub fn snap(&self, v: f64) -> f64 {
+        match self.values.binary_search_by(|p| p.total_cmp(&v)) {
+            Ok(i) => self.snapped[i],
+            Err(_) => v,
+        }
+    }
+}
+
+/// Snaps the x and y coordinates of all `rects` (one face, all nets) with tolerance
+/// [`SNAP_RELATIVE`] times the largest of the extent and the coordinate magnitudes.
+/// A rectangle may become degenerate (zero width) if it was thinner than the tolerance.
+pub(crate) fn snap_rects(rects: &mut [Rect]) {
+    if rects.is_empty() {
+        return;
+    }
+    let (mut lo, mut hi, mut mag) = (f64::INFINITY, f64::NEG_INFINITY, 0.0f64);
+    for r in rects.iter() {
+        for v in [r.x0, r.x1, r.y0, r.y1] {
+            lo = lo.min(v);
+            hi = hi.max(v);
+            mag = mag.max(v.abs());
+        }
+    }
+    let tol = SNAP_RELATIVE * (hi - lo).max(mag);
+    let sx = Snapper::new(rects.iter().flat_map(|r| [r.x0, r.x1]).collect(), tol);
+    let sy = Snapper::new(rects.iter().flat_map(|r| [r.y0, r.y1]).collect(), tol);
+    for r in rects.iter_mut() {
+        *r = Rect { x0: sx.snap(r.x0), x1: sx.snap(r.x1), y0: sy.snap(r.y0), y1: sy.snap(r.y1) };
+    }
+}
+
+/// Non-overlapping rectangles whose union equals the union of `rects` (which may overlap).
+///
+/// The distinct y coordinates cut the plane into slabs; in each slab the x-intervals of the
+/// rectangles spanning it are merged. A slab's interval continues the rectangle of the slab
+/// below when both x ends agree, so a plain rectangle comes out as one piece. Rectangles with
+/// non-positive extent are ignored. The output is ordered by `y0`, then `x0`.
+pub fn union(rects: &[Rect]) -> Vec<Rect> {
+    let rects: Vec<Rect> = rects.iter().copied().filter(|r| r.x0 < r.x1 && r.y0 < r.y1).collect();
+    let mut ys: Vec<f64> = rects.iter().flat_map(|r| [r.y0, r.y1]).collect();
+    ys.sort_by(f64::total_cmp);
+    ys.dedup();
+    // Sort by y0 so that the rectangles spanning a slab are found among a prefix.
+    let mut by_y0 = rects.clone();
+    by_y0.sort_by(|a, b| a.y0.total_cmp(&b.y0));
+
+    let mut out: Vec<Rect> = Vec::new();
+    // Open output rectangles ending at the current slab's bottom, keyed by their x ends.
+    let mut open: HashMap<(u64, u64), usize> = HashMap::new();
+    let mut intervals: Vec<(f64, f64)> = Vec::new();
+    for w in ys.windows(2) {
+        let (y0, y1) = (w[0], w[1]);
+        intervals.clear();
+        for r in by_y0.iter().take_while(|r| r.y0 <= y0) {
+            if r.y1 >= y1 {
+                intervals.push((r.x0, r.x1));
+            }
+        }
+        intervals.sort_by(|a, b| a.0.total_cmp(&b.0));
+        let mut merged: Vec<(f64, f64)> = Vec::new();
+        for &(a, b) in &intervals {
+            match merged.last_mut() {
+                Some(last) if a <= last.1 => last.1 = last.1.max(b),
+                _ => merged.push((a, b)),
+            }
+        }
+        let mut next_open = HashMap::with_capacity(merged.len());
+        for (a, b) in merged {
+            let key = (a.to_bits(), b.to_bits());
+            match open.get(&key) {
+                Some(&k) => {
+                    out[k].y1 = y1;
+                    next_open.insert(key, k);
+                }
+                None => {
+                    next_open.insert(key, out.len());
+                    out.push(Rect { x0: a, x1: b, y0, y1 });
+                }
+            }
+        }
+        open = next_open;
+    }
+    out.sort_by(|a, b| a.y0.total_cmp(&b.y0).then(a.x0.total_cmp(&b.x0)));
+    out
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn r(x0: f64, x1: f64, y0: f64, y1: f64) -> Rect {
+        Rect { x0, x1, y0, y1 }
+    }
+
+    fn no_overlaps(rs: &[Rect]) -> bool {
+        rs.iter().enumerate().all(|(i, a)| {
+            rs[i + 1..].iter().all(|b| a.x1 <= b.x0 || b.x1 <= a.x0 || a.y1 <= b.y0 || b.y1 <= a.y0)
+        })
+    }
+
+    #[test]
+    fn union_of_two_overlapping_squares() {
+        // Inclusion–exclusion (elementary geometry): 4 + 4 - 1 = 7.
+        let u = union(&[r(0.0, 2.0, 0.0, 2.0), r(1.0, 3.0, 1.0, 3.0)]);
+        assert!(no_overlaps(&u));
+        assert_eq!(u.iter().map(Rect::area).sum::<f64>(), 7.0);
+        assert_eq!(u.len(), 3);
+    }
+
+    #[test]
+    fn union_keeps_a_single_rectangle_whole() {
+        let u = union(&[r(0.0, 1.0, 0.0, 5.0), r(0.0, 1.0, 1.0, 2.0), r(0.0, 1.0, 2.0, 3.0)]);
+        assert_eq!(u, vec![r(0.0, 1.0, 0.0, 5.0)]);
+    }
+
+    #[test]
+    fn snapping_joins_rounding_twins_only() {
+        let near = 0.1 + 0.2;
+        assert_ne!(near, 0.3, "the two spellings must differ by a rounding error for this test");
+        let mut rs = [r(0.0, near, 0.0, 1.0), r(0.3, 2.0, 0.0, 1.0), r(2.001, 3.0, 0.0, 1.0)];
+        snap_rects(&mut rs);
+        assert_eq!(rs[0].x1, rs[1].x0);
+        assert_eq!(rs[2].x0, 2.001);
+    }
+}

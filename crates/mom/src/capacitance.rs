@@ -1,0 +1,160 @@
+//! Capacitance matrices from the compressed collocation operator.
+
+use crate::{MomError, PanelCollocation};
+use rafter_green::{Panel, StaticGreen};
+use rafter_hmatrix::{HMatrix, HOptions, HSummary, reference};
+use rafter_krylov::{GmresOptions, GmresReport, gmres_monitored};
+use rafter_linalg::DenseLu;
+use serde::Serialize;
+use std::time::Instant;
+
+/// Accuracy and solver settings of [`capacitance`].
+#[derive(Clone, Copy, Debug)]
+pub struct CapacitanceOptions {
+    /// H-matrix options (relative per-block tolerance ε, η, leaf size).
+    pub hmatrix: HOptions,
+    /// GMRES relative residual target; keep it ≥ 10 ε (see [`CapacitanceOptions::for_tolerance`]).
+    pub gmres: GmresOptions,
+    /// Use the dense reference path (dense fill + faer LU) instead of the H-matrix: for
+    /// verification of small problems only.
+    pub dense: bool,
+}
+
+impl CapacitanceOptions {
+    /// Options for H-matrix tolerance `eps`: GMRES to `max(10 ε, 1e-12)`, restart 60,
+    /// at most 2000 iterations; η = 2 and the default leaf size.
+    pub fn for_tolerance(eps: f64) -> Self {
+        Self {
+            hmatrix: HOptions { tolerance: eps, ..HOptions::default() },
+            gmres: GmresOptions { restart: 60, tolerance: (10.0 * eps).max(1e-12), max_iterations: 2000 },
+            dense: false,
+        }
+    }
+}
+
+/// Seconds spent per stage.
+#[derive(Clone, Debug, Default, Serialize)]
+pub struct StageTimes {
+    /// Building the operator (H-matrix compression, or dense fill).
+    pub assemble_s: f64,
+    /// Preconditioner set-up (or dense LU).
+    pub preconditioner_s: f64,
+    /// All right-hand sides.
+    pub solve_s: f64,
+}
+
+/// The result of [`capacitance`].
+#[derive(Clone, Debug, Serialize)]
+pub struct CapacitanceResult {
+    /// Maxwell capacitance matrix (F): `C[i][j]` is the charge on net `i` when net `j` is at
+    /// 1 V and all others at 0 V.
+    pub maxwell: Vec<Vec<f64>>,
+    /// `‖C − Cᵀ‖_F / ‖C‖_F`: zero for an exact solution; collocation and compression leave a
+    /// small asymmetry, a quality figure.
+    pub asymmetry: f64,
+    /// GMRES reports, one per net (empty on the dense path).
+    pub gmres: Vec<GmresReport>,
+    /// H-matrix totals (`None` on the dense path).
+    pub hmatrix: Option<HSummary>,
+    /// Stage timings.
+    pub timing: StageTimes,
+    /// Panel charges (C) of each solve, net by net (`charges[j][k]`: panel `k`, net `j` at 1 V).
+    #[serde(skip)]
+    pub charges: Vec<Vec<f64>>,
+}
+
+/// Solves `P q = v_j` for each net `j` (its panels at 1 V, all others at 0 V) and sums the
+/// panel charges per net: `C_ij = Σ_{k ∈ net i} q_k^{(j)}`.
+///
+/// `net_of[k]` is the net of panel `k` (0-based, < `nets`). `progress` receives stage
+/// messages; `gmres_progress(net, iteration, residual)` follows each solve.
+pub fn capacitance(
+    panels: &[Panel],
+    net_of: &[usize],
+    nets: usize,
+    green: &dyn StaticGreen,
+    opts: &CapacitanceOptions,
+    build_progress: Option<&(dyn Fn(usize, usize) + Sync)>,
+    gmres_progress: &mut dyn FnMut(usize, usize, f64),
+) -> Result<CapacitanceResult, MomError> {
+    if panels.len() != net_of.len() {
+        return Err(MomError::Input(format!("{} panels but {} net assignments", panels.len(), net_of.len())));
+    }
+    if let Some(&bad) = net_of.iter().find(|&&k| k >= nets) {
+        return Err(MomError::Input(format!("panel assigned to net {bad}, but there are only {nets} nets")));
+    }
+    if (0..nets).any(|k| !net_of.contains(&k)) {
+        return Err(MomError::Input("every net needs at least one panel".into()));
+    }
+    let src = PanelCollocation::new(panels, green);
+    let n = panels.len();
+    let rhs: Vec<Vec<f64>> =
+        (0..nets).map(|j| net_of.iter().map(|&k| if k == j { 1.0 } else { 0.0 }).collect()).collect();
+    let mut timing = StageTimes::default();
+    let mut reports = Vec::new();
+    let mut summary = None;
+    let charges: Vec<Vec<f64>> = if opts.dense {
+        let t = Instant::now();
+        let a = reference::assemble_dense(&src)?;
+        timing.assemble_s = t.elapsed().as_secs_f64();
+        let t = Instant::now();
+        let lu = DenseLu::factor(&a)?;
+        drop(a);
+        timing.preconditioner_s = t.elapsed().as_secs_f64();
+        let t = Instant::now();
+        let mut all: Vec<f64> = rhs.concat();
+        lu.solve_in_place(&mut all)?;
+        timing.solve_s = t.elapsed().as_secs_f64();
+        all.chunks(n).map(<[f64]>::to_vec).collect()
+    } else {
+        let t = Instant::now();
+        let h = HMatrix::build_square(&src, src.centres(), &opts.hmatrix, build_progress)?;
+        timing.assemble_s = t.elapsed().as_secs_f64();
+        summary = Some(h.summary());
+        let t = Instant::now();
+        let pc = h.block_jacobi()?;
+        timing.preconditioner_s = t.elapsed().as_secs_f64();
+        let t = Instant::now();
+        let mut out = Vec::with_capacity(nets);
+        for (j, b) in rhs.iter().enumerate() {
+            let mut q = vec![0.0; n];
+            let rep =
+                gmres_monitored(&h, &pc, b, &mut q, &opts.gmres, &mut |it, r| gmres_progress(j, it, r))?;
+            reports.push(rep);
+            out.push(q);
+        }
+        timing.solve_s = t.elapsed().as_secs_f64();
+        out
+    };
+    let mut maxwell = vec![vec![0.0; nets]; nets];
+    for (j, q) in charges.iter().enumerate() {
+        for (&k, &qk) in net_of.iter().zip(q) {
+            maxwell[k][j] += qk;
+        }
+    }
+    let norm: f64 = maxwell.iter().flatten().map(|c| c * c).sum::<f64>().sqrt();
+    let asym: f64 = (0..nets)
+        .flat_map(|i| (0..nets).map(move |j| (i, j)))
+        .map(|(i, j)| (maxwell[i][j] - maxwell[j][i]).powi(2))
+        .sum::<f64>()
+        .sqrt();
+    Ok(CapacitanceResult {
+        maxwell,
+        asymmetry: if norm > 0.0 { asym / norm } else { 0.0 },
+        gmres: reports,
+        hmatrix: summary,
+        timing,
+        charges,
+    })
+}
+
+/// SPICE (branch) form of a Maxwell matrix, symmetrised as `(C + Cᵀ)/2`: returns
+/// `(to_ground, between)` with `to_ground[i] = Σ_j C_ij` (capacitance from net `i` to the
+/// reference) and `between[i][j] = −C_ij` for `i ≠ j` (0 on the diagonal).
+pub fn spice_form(maxwell: &[Vec<f64>]) -> (Vec<f64>, Vec<Vec<f64>>) {
+    let n = maxwell.len();
+    let sym = |i: usize, j: usize| 0.5 * (maxwell[i][j] + maxwell[j][i]);
+    let to_ground = (0..n).map(|i| (0..n).map(|j| sym(i, j)).sum()).collect();
+    let between = (0..n).map(|i| (0..n).map(|j| if i == j { 0.0 } else { -sym(i, j) }).collect()).collect();
+    (to_ground, between)
+}

@@ -1,0 +1,287 @@
+//! `rafter extract`: layout → mesh → compressed collocation operator → capacitance matrix,
+//! and the files that report it.
+
+use crate::output::{Staging, peak_memory_bytes};
+use anyhow::{Context, bail};
+use rafter_green::{FreeSpace, GroundBelow, Panel, StaticGreen, TwoGrounds};
+use rafter_layout::{Layout, Mesh};
+use rafter_mom::{CapacitanceOptions, CapacitanceResult, capacitance, spice_form};
+use serde::Serialize;
+use std::fmt::Write as _;
+use std::path::Path;
+use std::time::Instant;
+
+/// Progress hooks of [`extract`].
+pub struct Hooks<'a> {
+    /// A new stage starts (its name).
+    pub stage: &'a mut dyn FnMut(&str),
+    /// (blocks done, total) while the H-matrix is built.
+    pub build: &'a (dyn Fn(usize, usize) + Sync),
+    /// (net, iteration, relative residual) during each solve.
+    pub gmres: &'a mut dyn FnMut(usize, usize, f64),
+}
+
+/// Seconds per stage of an extraction.
+#[derive(Clone, Debug, Default, Serialize)]
+pub struct Timing {
+    /// Reading and validating the layout.
+    pub parse_s: f64,
+    /// Meshing.
+    pub mesh_s: f64,
+    /// Operator build (H-matrix compression, or dense fill).
+    pub assemble_s: f64,
+    /// Preconditioner set-up (or dense LU).
+    pub preconditioner_s: f64,
+    /// All solves.
+    pub solve_s: f64,
+    /// Wall time from start to results.
+    pub total_s: f64,
+}
+
+/// H-matrix figures in the report.
+#[derive(Clone, Debug, Serialize)]
+pub struct HReport {
+    /// Stored bytes / dense bytes.
+    pub compression: f64,
+    /// Stored bytes.
+    pub memory_bytes: u64,
+    /// Largest block rank.
+    pub max_rank: usize,
+    /// Relative per-block tolerance.
+    pub tolerance: f64,
+    /// Leaf blocks.
+    pub blocks: usize,
+}
+
+/// GMRES figures in the report.
+#[derive(Clone, Debug, Serialize)]
+pub struct GmresSummary {
+    /// Iterations per right-hand side (one per net, in net order).
+    pub iterations: Vec<usize>,
+    /// Final relative residual per right-hand side.
+    pub residual: Vec<f64>,
+    /// Residual target.
+    pub tolerance: f64,
+}
+
+/// SPICE (branch) form.
+#[derive(Clone, Debug, Serialize)]
+pub struct SpiceReport {
+    /// Capacitance from each net to the reference (F).
+    pub to_ground: Vec<f64>,
+    /// Capacitance between nets (F), symmetric, zero diagonal.
+    pub between: Vec<Vec<f64>>,
+}
+
+/// Everything `capacitance.json` holds.
+#[derive(Clone, Debug, Serialize)]
+pub struct Extraction {
+    /// Layout name.
+    pub layout: String,
+    /// Layout file.
+    pub file: String,
+    /// Net names, in matrix order.
+    pub nets: Vec<String>,
+    /// Maxwell capacitance matrix (F), rows by net.
+    pub capacitance: Vec<Vec<f64>>,
+    /// SPICE form.
+    pub spice: SpiceReport,
+    /// `‖C − Cᵀ‖_F/‖C‖_F`.
+    pub asymmetry: f64,
+    /// Unknowns (cells).
+    pub unknowns: usize,
+    /// Cells per net.
+    pub cells_per_net: Vec<usize>,
+    /// Medium (Green's function) used.
+    pub medium: String,
+    /// `"h-matrix"` or `"dense"`.
+    pub method: &'static str,
+    /// H-matrix figures (absent on the dense path).
+    pub hmatrix: Option<HReport>,
+    /// GMRES figures (absent on the dense path).
+    pub gmres: Option<GmresSummary>,
+    /// Seconds per stage.
+    pub timing: Timing,
+    /// Peak resident memory of the process (bytes).
+    pub peak_memory_bytes: Option<u64>,
+}
+
+/// The Green's function of a homogeneous stack-up; refuses layered ones (not supported yet).
+pub fn green_for(layout: &Layout) -> anyhow::Result<Box<dyn StaticGreen>> {
+    let s = &layout.stackup;
+    let accuracy = layout.solve.tolerance / 10.0;
+    let Some(eps_r) = s.uniform_eps_r() else {
+        bail!(
+            "{}: stackup.layers: the dielectrics have different eps_r; stack-ups with several \
+             permittivities are not supported yet (hint: for now give every dielectric the same eps_r)",
+            layout.file
+        );
+    };
+    let green: Box<dyn StaticGreen> = match (s.ground_below, s.ground_above) {
+        (Some(z0), Some(z1)) => Box::new(TwoGrounds::new(z0, z1 - z0, eps_r, accuracy)?),
+        (below, None) => {
+            if eps_r != 1.0 {
+                bail!(
+                    "{}: stackup.layers: dielectric eps_r = {eps_r} with air above; without a top \
+                     ground the medium is not homogeneous, which is not supported yet (hint: use \
+                     eps_r = 1, or close the stack with a ground layer on top)",
+                    layout.file
+                );
+            }
+            match below {
+                Some(z0) => Box::new(GroundBelow::new(z0, 1.0, accuracy)?),
+                None => Box::new(FreeSpace::new(1.0, accuracy)?),
+            }
+        }
+        (None, Some(_)) => bail!(
+            "{}: stackup.layers: a ground only at the top is not supported (hint: list layers \
+             bottom to top, the ground first)",
+            layout.file
+        ),
+    };
+    Ok(green)
+}
+
+/// Panels and their nets from a mesh.
+pub fn panels(mesh: &Mesh) -> (Vec<Panel>, Vec<usize>) {
+    mesh.cells
+        .iter()
+        .map(|c| (Panel { x0: c.rect.x0, x1: c.rect.x1, y0: c.rect.y0, y1: c.rect.y1, z: c.z }, c.net))
+        .unzip()
+}
+
+/// Runs the extraction of `layout` (already parsed in `parse_s` seconds).
+pub fn extract(layout: &Layout, parse_s: f64, dense: bool, hooks: Hooks<'_>) -> anyhow::Result<Extraction> {
+    let start = Instant::now();
+    let green = green_for(layout)?;
+    (hooks.stage)("meshing");
+    let t = Instant::now();
+    let mesh = rafter_layout::mesh(layout)?;
+    let mesh_s = t.elapsed().as_secs_f64();
+    let (panels, net_of) = panels(&mesh);
+    let mut opts = CapacitanceOptions::for_tolerance(layout.solve.tolerance);
+    opts.dense = dense;
+    (hooks.stage)(if dense { "dense reference" } else { "building H-matrix" });
+    let res: CapacitanceResult = capacitance(
+        &panels,
+        &net_of,
+        layout.nets.len(),
+        green.as_ref(),
+        &opts,
+        Some(hooks.build),
+        hooks.gmres,
+    )
+    .with_context(|| format!("extracting {}", layout.file))?;
+    let (to_ground, between) = spice_form(&res.maxwell);
+    Ok(Extraction {
+        layout: layout.name.clone(),
+        file: layout.file.clone(),
+        nets: layout.nets.iter().map(|n| n.name.clone()).collect(),
+        capacitance: res.maxwell.clone(),
+        spice: SpiceReport { to_ground, between },
+        asymmetry: res.asymmetry,
+        unknowns: panels.len(),
+        cells_per_net: mesh.cells_per_net.clone(),
+        medium: green.describe(),
+        method: if dense { "dense" } else { "h-matrix" },
+        hmatrix: res.hmatrix.as_ref().map(|s| HReport {
+            compression: s.compression,
+            memory_bytes: s.memory_bytes,
+            max_rank: s.max_rank,
+            tolerance: s.tolerance,
+            blocks: s.blocks,
+        }),
+        gmres: (!dense).then(|| GmresSummary {
+            iterations: res.gmres.iter().map(|g| g.iterations).collect(),
+            residual: res.gmres.iter().map(|g| g.residual).collect(),
+            tolerance: opts.gmres.tolerance,
+        }),
+        timing: Timing {
+            parse_s,
+            mesh_s,
+            assemble_s: res.timing.assemble_s,
+            preconditioner_s: res.timing.preconditioner_s,
+            solve_s: res.timing.solve_s,
+            total_s: parse_s + start.elapsed().as_secs_f64(),
+        },
+        peak_memory_bytes: peak_memory_bytes(),
+    })
+}
+
+/// SPICE-safe node name: letters, digits and `_` kept, anything else becomes `_`.
+fn node(name: &str) -> String {
+    let s: String =
+        name.chars().map(|c| if c.is_ascii_alphanumeric() || c == '_' { c } else { '_' }).collect();
+    if s.starts_with(|c: char| c.is_ascii_alphabetic()) { s } else { format!("n_{s}") }
+}
+
+/// The SPICE subcircuit text: one capacitor per net to the `ref` pin and per pair of nets.
+pub fn spice_text(x: &Extraction) -> String {
+    let name = node(&x.layout);
+    let nodes: Vec<String> = x.nets.iter().map(|n| node(n)).collect();
+    let mut s = String::new();
+    let _ = writeln!(s, "* rafter capacitance extraction of {} ({})", x.layout, x.file);
+    let _ = writeln!(
+        s,
+        "* symmetrised Maxwell matrix in branch form; farads; pin ref is the reference conductor"
+    );
+    let _ = writeln!(s, "* engineering estimate: validate critical designs by measurement");
+    let _ = writeln!(s, ".SUBCKT {name} {} ref", nodes.join(" "));
+    for (i, ni) in nodes.iter().enumerate() {
+        let _ = writeln!(s, "C_{ni}_ref {ni} ref {:.6e}", x.spice.to_ground[i]);
+    }
+    for i in 0..nodes.len() {
+        for j in i + 1..nodes.len() {
+            let _ = writeln!(
+                s,
+                "C_{}_{} {} {} {:.6e}",
+                nodes[i], nodes[j], nodes[i], nodes[j], x.spice.between[i][j]
+            );
+        }
+    }
+    let _ = writeln!(s, ".ENDS {name}");
+    s
+}
+
+/// The Maxwell matrix as CSV (farads), a header row of net names.
+pub fn csv_text(x: &Extraction) -> String {
+    let quote = |s: &str| format!("\"{}\"", s.replace('"', "\"\""));
+    let mut s = format!("net,{}\n", x.nets.iter().map(|n| quote(n)).collect::<Vec<_>>().join(","));
+    for (name, row) in x.nets.iter().zip(&x.capacitance) {
+        let _ = writeln!(
+            s,
+            "{},{}",
+            quote(name),
+            row.iter().map(|c| format!("{c:.9e}")).collect::<Vec<_>>().join(",")
+        );
+    }
+    s
+}
+
+/// A terminal table of the Maxwell matrix in pF.
+pub fn table_text(x: &Extraction) -> String {
+    let w = x.nets.iter().map(|n| n.len()).max().unwrap_or(4).max(10);
+    let mut s = format!("Maxwell capacitance matrix (pF), {} unknowns:\n{:>w$}", x.unknowns, "");
+    for n in &x.nets {
+        let _ = write!(s, " {n:>w$}");
+    }
+    s.push('\n');
+    for (n, row) in x.nets.iter().zip(&x.capacitance) {
+        let _ = write!(s, "{n:>w$}");
+        for c in row {
+            let _ = write!(s, " {:>w$.5}", c * 1e12);
+        }
+        s.push('\n');
+    }
+    let _ = writeln!(s, "asymmetry ‖C − Cᵀ‖/‖C‖ = {:.2e}", x.asymmetry);
+    s
+}
+
+/// Writes `capacitance.json`, `.csv` and `.cir` into `dir`, all or nothing.
+pub fn write_outputs(dir: &Path, x: &Extraction) -> anyhow::Result<()> {
+    let mut st = Staging::new(dir)?;
+    st.add("capacitance.json", serde_json::to_string_pretty(x)?.as_bytes())?;
+    st.add("capacitance.csv", csv_text(x).as_bytes())?;
+    st.add("capacitance.cir", spice_text(x).as_bytes())?;
+    st.commit()
+}
