@@ -4,7 +4,7 @@
 use crate::output::{Staging, peak_memory_bytes};
 use anyhow::{Context, bail};
 use rafter_green::{FreeSpace, GroundBelow, Panel, StaticGreen, TwoGrounds};
-use rafter_layout::{Layout, Mesh};
+use rafter_layout::{CellShape, Layout, Mesh};
 use rafter_mom::{CapacitanceOptions, CapacitanceResult, capacitance, spice_form};
 use serde::Serialize;
 use std::fmt::Write as _;
@@ -146,7 +146,13 @@ pub fn green_for(layout: &Layout) -> anyhow::Result<Box<dyn StaticGreen>> {
 pub fn panels(mesh: &Mesh) -> (Vec<Panel>, Vec<usize>) {
     mesh.cells
         .iter()
-        .map(|c| (Panel { x0: c.rect.x0, x1: c.rect.x1, y0: c.rect.y0, y1: c.rect.y1, z: c.z }, c.net))
+        .map(|c| {
+            let panel = match c.shape {
+                CellShape::Rect(r) => Panel::Rect { x0: r.x0, x1: r.x1, y0: r.y0, y1: r.y1, z: c.z },
+                CellShape::Triangle(v) => Panel::Triangle { v, z: c.z },
+            };
+            (panel, c.net)
+        })
         .unzip()
 }
 

@@ -1,7 +1,7 @@
 //! Green's functions of homogeneous media: free space, one ground plane, two ground planes.
 
 use crate::panel::{inverse_distance, inverse_distance_exact};
-use crate::quadrature::{order_for, panel_rule};
+use crate::quadrature::{panel_rule, rule_for};
 use crate::{EPS0, GreenError, Panel, StaticGreen};
 use std::f64::consts::PI;
 
@@ -23,8 +23,7 @@ fn dist(a: [f64; 3], b: [f64; 3]) -> f64 {
 /// Quadrature orders for a panel seen from `obs`, when the point is far enough (see
 /// [`order_for`]).
 fn orders(obs: [f64; 3], panel: &Panel, accuracy: f64) -> Option<(usize, usize)> {
-    let d = panel.distance(obs);
-    Some((order_for(panel.x1 - panel.x0, d, accuracy)?, order_for(panel.y1 - panel.y0, d, accuracy)?))
+    rule_for(panel, panel.distance(obs), accuracy)
 }
 
 /// Unbounded homogeneous medium: `G = 1 / (4π ε0 εr R)`.
@@ -81,7 +80,7 @@ impl StaticGreen for GroundBelow {
         (1.0 / dist(obs, src) - 1.0 / dist(obs, img)) / (4.0 * PI * self.eps)
     }
     fn panel_potential(&self, obs: [f64; 3], panel: &Panel) -> f64 {
-        let zi = self.mirror(panel.z);
+        let zi = self.mirror(panel.z());
         // Far: integrate the (smooth, dipole-like) difference kernel directly, so its relative
         // accuracy is that of the quadrature, not of two large cancelling terms.
         let integral = match orders(obs, panel, self.accuracy) {
@@ -187,7 +186,7 @@ impl StaticGreen for TwoGrounds {
             None => {
                 // Near: every image panel integrated on its own (closed form where close), plus
                 // the smooth tails at the panel centre.
-                let (b, zs) = (self.b, panel.z - self.z0);
+                let (b, zs) = (self.b, panel.z() - self.z0);
                 let mut s = inverse_distance_exact(obs, panel);
                 for n in -IMAGES..=IMAGES {
                     let shift = 2.0 * n as f64 * b;
@@ -278,7 +277,7 @@ mod tests {
             Box::new(GroundBelow::new(0.0, 1.0, 1e-7).unwrap()),
             Box::new(TwoGrounds::new(0.0, b, 4.4, 1e-7).unwrap()),
         ];
-        let panel = Panel { x0: 0.0, x1: 0.2e-3, y0: 0.0, y1: 0.05e-3, z: 0.5e-3 };
+        let panel = Panel::Rect { x0: 0.0, x1: 0.2e-3, y0: 0.0, y1: 0.05e-3, z: 0.5e-3 };
         for g in &greens {
             for obs in [[0.6e-3, 0.02e-3, 0.5e-3], [3e-3, 1e-3, 0.5e-3], [0.25e-3, 0.2e-3, 0.3e-3]] {
                 let got = g.panel_potential(obs, &panel);

@@ -61,39 +61,120 @@ pub fn order_for(side: f64, dist: f64, accuracy: f64) -> Option<usize> {
     (1..=MAX_ORDER).find(|&n| ERROR_CONSTANT[n] * t2.powi(n as i32) <= 0.5 * accuracy)
 }
 
-/// `∫∫_panel f dA` by the `nx × ny` Gauss–Legendre product rule (orders ≤ MAX_ORDER).
-pub fn panel_rule(panel: &Panel, nx: usize, ny: usize, f: impl Fn([f64; 3]) -> f64) -> f64 {
-    let (gx, wx) = cached(nx.min(MAX_ORDER));
-    let (gy, wy) = cached(ny.min(MAX_ORDER));
-    let (cx, hx) = (0.5 * (panel.x0 + panel.x1), 0.5 * (panel.x1 - panel.x0));
-    let (cy, hy) = (0.5 * (panel.y0 + panel.y1), 0.5 * (panel.y1 - panel.y0));
-    let mut s = 0.0;
-    for (xi, wi) in gx.iter().zip(wx) {
-        for (yj, wj) in gy.iter().zip(wy) {
-            s += wi * wj * f([cx + hx * xi, cy + hy * yj, panel.z]);
+/// Rule orders for integrating `1/R`-like kernels over `panel` from a point at distance `dist`
+/// to relative `accuracy`: `(nx, ny)` per side for a rectangle, `(n + 1, n)` from the longest
+/// side for a triangle; `None` when the point is too close (use a closed form).
+pub fn rule_for(panel: &Panel, dist: f64, accuracy: f64) -> Option<(usize, usize)> {
+    match *panel {
+        Panel::Rect { x0, x1, y0, y1, .. } => {
+            Some((order_for(x1 - x0, dist, accuracy)?, order_for(y1 - y0, dist, accuracy)?))
+        }
+        Panel::Triangle { .. } => {
+            // The collapsed rule's weight u costs one degree in u: one more point there.
+            let n = order_for(panel.max_side(), dist, accuracy)?;
+            (n < MAX_ORDER).then_some((n + 1, n))
         }
     }
-    s * hx * hy
 }
 
-/// `∫∫_panel f dA` with the panel cut into `sub × sub` pieces, each by an `n × n` rule: a
-/// brute-force reference for tests and for smooth remainders that need many points.
-pub fn panel_rule_subdivided(panel: &Panel, sub: usize, n: usize, f: impl Fn([f64; 3]) -> f64) -> f64 {
-    let (gx, wx) = gauss_legendre(n);
-    let dx = (panel.x1 - panel.x0) / sub as f64;
-    let dy = (panel.y1 - panel.y0) / sub as f64;
-    let mut s = 0.0;
-    for a in 0..sub {
-        for b in 0..sub {
-            let (cx, cy) = (panel.x0 + (a as f64 + 0.5) * dx, panel.y0 + (b as f64 + 0.5) * dy);
-            for (xi, wi) in gx.iter().zip(&wx) {
-                for (yj, wj) in gx.iter().zip(&wx) {
-                    s += wi * wj * f([cx + 0.5 * dx * xi, cy + 0.5 * dy * yj, panel.z]);
+/// `∫∫_panel f dA`: for a rectangle the `nx × ny` Gauss–Legendre product rule; for a
+/// triangle `ABC` the collapsed (conical product) rule
+/// `2|T| ∫₀¹∫₀¹ f(A + u((B − A) + v(C − B))) u du dv` with `nx` points in `u` and `ny` in `v`
+/// (Stroud, *Approximate Calculation of Multiple Integrals*, 1971). Orders ≤ MAX_ORDER.
+pub fn panel_rule(panel: &Panel, nx: usize, ny: usize, f: impl Fn([f64; 3]) -> f64) -> f64 {
+    let (gx, wx) = cached(nx.clamp(1, MAX_ORDER));
+    let (gy, wy) = cached(ny.clamp(1, MAX_ORDER));
+    match *panel {
+        Panel::Rect { x0, x1, y0, y1, z } => {
+            let (cx, hx) = (0.5 * (x0 + x1), 0.5 * (x1 - x0));
+            let (cy, hy) = (0.5 * (y0 + y1), 0.5 * (y1 - y0));
+            let mut s = 0.0;
+            for (xi, wi) in gx.iter().zip(wx) {
+                for (yj, wj) in gy.iter().zip(wy) {
+                    s += wi * wj * f([cx + hx * xi, cy + hy * yj, z]);
                 }
             }
+            s * hx * hy
+        }
+        Panel::Triangle { v, z } => triangle_rule(v, z, gx, wx, gy, wy, &f) * panel.area(),
+    }
+}
+
+/// `(1/|T|) ∫∫_T f dA` by the collapsed rule on nodes/weights of `[−1, 1]`.
+fn triangle_rule(
+    v: [[f64; 2]; 3],
+    z: f64,
+    gu: &[f64],
+    wu: &[f64],
+    gv: &[f64],
+    wv: &[f64],
+    f: &impl Fn([f64; 3]) -> f64,
+) -> f64 {
+    let (a, b, c) = (v[0], v[1], v[2]);
+    let mut s = 0.0;
+    for (ui, wi) in gu.iter().zip(wu) {
+        let u = 0.5 * (ui + 1.0);
+        for (vj, wj) in gv.iter().zip(wv) {
+            let t = 0.5 * (vj + 1.0);
+            let x = a[0] + u * ((b[0] - a[0]) + t * (c[0] - b[0]));
+            let y = a[1] + u * ((b[1] - a[1]) + t * (c[1] - b[1]));
+            // dA = 2|T| u du dt; du dt = (1/4) dξ dη on [−1, 1]².
+            s += wi * wj * u * f([x, y, z]);
         }
     }
-    s * 0.25 * dx * dy
+    0.5 * s
+}
+
+/// `∫∫_panel f dA` with the panel cut into `sub × sub` rectangles (or `sub²` similar
+/// triangles), each by an `n × n` rule: a brute-force reference for tests.
+pub fn panel_rule_subdivided(panel: &Panel, sub: usize, n: usize, f: impl Fn([f64; 3]) -> f64) -> f64 {
+    let (g, w) = gauss_legendre(n);
+    match *panel {
+        Panel::Rect { x0, x1, y0, y1, z } => {
+            let dx = (x1 - x0) / sub as f64;
+            let dy = (y1 - y0) / sub as f64;
+            let mut s = 0.0;
+            for a in 0..sub {
+                for b in 0..sub {
+                    let (cx, cy) = (x0 + (a as f64 + 0.5) * dx, y0 + (b as f64 + 0.5) * dy);
+                    for (xi, wi) in g.iter().zip(&w) {
+                        for (yj, wj) in g.iter().zip(&w) {
+                            s += wi * wj * f([cx + 0.5 * dx * xi, cy + 0.5 * dy * yj, z]);
+                        }
+                    }
+                }
+            }
+            s * 0.25 * dx * dy
+        }
+        Panel::Triangle { v, z } => {
+            let pt = |i: usize, j: usize| {
+                let (s, t) = (i as f64 / sub as f64, j as f64 / sub as f64);
+                [
+                    v[0][0] + s * (v[1][0] - v[0][0]) + t * (v[2][0] - v[0][0]),
+                    v[0][1] + s * (v[1][1] - v[0][1]) + t * (v[2][1] - v[0][1]),
+                ]
+            };
+            let small = panel.area() / (sub * sub) as f64;
+            let mut s = 0.0;
+            for i in 0..sub {
+                for j in 0..sub - i {
+                    s += triangle_rule([pt(i, j), pt(i + 1, j), pt(i, j + 1)], z, &g, &w, &g, &w, &f);
+                    if i + j + 1 < sub {
+                        s += triangle_rule(
+                            [pt(i + 1, j), pt(i + 1, j + 1), pt(i, j + 1)],
+                            z,
+                            &g,
+                            &w,
+                            &g,
+                            &w,
+                            &f,
+                        );
+                    }
+                }
+            }
+            s * small
+        }
+    }
 }
 
 #[cfg(test)]

@@ -54,7 +54,8 @@ impl Layout {
         format!("{} {}", format_in_units(metres, self.unit_m), self.unit_name)
     }
 
-    /// Total number of rectangles over all nets and regions.
+    /// Total number of rectangles over all nets and regions (Manhattan regions only; those
+    /// with an outline have none).
     pub fn rect_count(&self) -> usize {
         self.nets.iter().flat_map(|n| &n.regions).map(|r| r.rects.len()).sum()
     }

@@ -1,5 +1,6 @@
 //! Layout files: the stack-up, the nets and their conductor shapes, read from TOML, validated,
-//! and meshed into rectangular cells graded toward the conductor edges.
+//! and meshed into cells graded toward the conductor edges: rectangles where a net's shapes on
+//! a face are all axis-aligned (Manhattan), triangles where any of them is oblique.
 //!
 //! [`load`] (or [`parse_str`]) returns a [`Layout`] whose lengths are all in metres; every
 //! problem in the file comes back as a [`LayoutError`] naming the file, the field path, the
@@ -49,9 +50,14 @@
 //! - Shapes: `rect` (`min < max` on both axes), `trace` (`width > 0`, at least 2 distinct
 //!   consecutive points; each segment is widened to `width` and extended by `width/2` past
 //!   its ends), `polygon` (at least 3 points, non-zero area, not self-intersecting; closes
-//!   by itself). This version accepts axis-aligned (Manhattan) segments and edges only.
+//!   by itself). Segments and edges may be oblique.
 //! - Shapes of one net may overlap; they are merged. Different nets must not touch or
-//!   overlap on the same face. Unknown keys are errors everywhere.
+//!   overlap on the same face (up to a billionth of the face's extent). Unknown keys are
+//!   errors everywhere.
+//! - Meshing: a net's region on one face is cut into rectangles when all its shapes there
+//!   are Manhattan (the count is then exact, see [`estimate_cells`]); otherwise the union of
+//!   its shapes is triangulated, with boundary segments of 0.15 `max_cell` and triangles
+//!   growing from there to at most `max_cell` inside (the count is then estimated).
 //!
 //! # Example
 //!
@@ -78,8 +84,10 @@
 //!
 //! Modules, one concept each: [`units`] (length units), `file` (the raw TOML structure),
 //! [`stackup`] (layers and heights), `polygon` (plane polygon geometry), `shapes`
-//! (shapes to rectangles), [`union`] (union of rectangles), [`net`] (nets and regions),
-//! [`mod@layout`] (the validated layout), [`mod@mesh`] (cells), [`error`] (the error type).
+//! (shapes to rectangles or polygons), [`union`] (union of rectangles, and of polygons into
+//! outlines), [`net`] (nets and regions), [`mod@layout`] (the validated layout),
+//! [`mod@mesh`] (cells), `triangulate` (triangle meshes of outlines), [`error`] (the error
+//! type).
 
 #![warn(missing_docs)]
 
@@ -92,12 +100,13 @@ mod polygon;
 pub mod rect;
 mod shapes;
 pub mod stackup;
+mod triangulate;
 pub mod union;
 pub mod units;
 
 pub use error::LayoutError;
 pub use layout::{DEFAULT_TOLERANCE, Layout, MeshOptions, SolveOptions, load, parse_str};
-pub use mesh::{Cell, MAX_CELLS, Mesh, estimate_cells, mesh, subdivide};
+pub use mesh::{Cell, CellShape, MAX_CELLS, Mesh, estimate_cells, mesh, subdivide};
 pub use net::{Net, Region};
 pub use rect::Rect;
 pub use stackup::{Layer, LayerKind, Stackup};

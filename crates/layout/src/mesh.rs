@@ -1,16 +1,24 @@
-//! Meshing: the regions of every net cut into rectangular cells, graded toward edges.
+//! Meshing: the regions of every net cut into cells graded toward edges, rectangles for
+//! Manhattan regions and triangles for the others.
 //!
-//! Per region, the distinct x (resp. y) coordinates of its rectangles are the breakpoints of
-//! that axis. Each interval between consecutive breakpoints is subdivided on its own
-//! ([`subdivide`]): uniformly, or with `edge_refine` geometrically graded toward both of its
-//! ends, where the surface charge of a thin conductor is singular. The cells are the
+//! Manhattan region: the distinct x (resp. y) coordinates of its rectangles are the
+//! breakpoints of that axis. Each interval between consecutive breakpoints is subdivided on
+//! its own ([`subdivide`]): uniformly, or with `edge_refine` geometrically graded toward both
+//! of its ends, where the surface charge of a thin conductor is singular. The cells are the
 //! tensor-product cells lying inside the region's rectangles; since every rectangle edge is a
 //! breakpoint, they tile the region exactly.
+//!
+//! Non-Manhattan region (an outline): a constrained Delaunay triangulation of the outline,
+//! its boundary cut into segments of [`TRIANGLE_EDGE_FRACTION`]` · max_cell` (`max_cell`
+//! without `edge_refine`), refined to a smallest angle of [`TRIANGLE_MIN_ANGLE_DEG`] and to
+//! longest edges of at most `min(max_cell, edge + `[`TRIANGLE_GRADING`]` · distance from the
+//! boundary)`. The triangles tile the outline exactly.
 
-use crate::error::{Ctx, LayoutError};
+use crate::error::{Ctx, LayoutError, fmt_str};
 use crate::layout::{Layout, MeshOptions};
 use crate::net::Region;
 use crate::rect::Rect;
+use crate::triangulate::{self, TriangulateError};
 use crate::units::format_in_units;
 
 /// Largest number of cells [`mesh`] will produce.
@@ -27,15 +35,69 @@ pub const EDGE_CELL_FRACTION: f64 = 1.0 / 8.0;
 /// rounding) gets k cells rather than k + 1.
 const COUNT_SLACK: f64 = 1e-9;
 
-/// One mesh cell: a rectangle of conductor at height `z`, belonging to net `net`.
+/// Length of the boundary segments of a triangle-meshed region, as a fraction of `max_cell`
+/// (with `edge_refine`; the triangles along the boundary are about this size).
+pub const TRIANGLE_EDGE_FRACTION: f64 = 0.15;
+
+/// Growth of the triangle size target with the distance d from the region's boundary: the
+/// longest edge of a triangle is at most `min(max_cell, edge + TRIANGLE_GRADING · d)`.
+pub const TRIANGLE_GRADING: f64 = 0.5;
+
+/// Smallest angle (degrees) the triangle refinement aims for (angles between input edges
+/// smaller than this are kept as they are).
+pub const TRIANGLE_MIN_ANGLE_DEG: f64 = 25.0;
+
+/// The plane shape of a cell, in metres.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum CellShape {
+    /// An axis-aligned rectangle.
+    Rect(Rect),
+    /// A triangle, vertices `[x, y]` in counter-clockwise order.
+    Triangle([[f64; 2]; 3]),
+}
+
+impl CellShape {
+    /// Area (m²).
+    pub fn area(&self) -> f64 {
+        match self {
+            CellShape::Rect(r) => r.area(),
+            CellShape::Triangle([a, b, c]) => {
+                0.5 * ((b[0] - a[0]) * (c[1] - a[1]) - (b[1] - a[1]) * (c[0] - a[0]))
+            }
+        }
+    }
+
+    /// Area centroid `[x, y]` (m): the centre of a rectangle, the vertex mean of a triangle.
+    pub fn centroid(&self) -> [f64; 2] {
+        match self {
+            CellShape::Rect(r) => r.center(),
+            CellShape::Triangle([a, b, c]) => [(a[0] + b[0] + c[0]) / 3.0, (a[1] + b[1] + c[1]) / 3.0],
+        }
+    }
+}
+
+/// One mesh cell: a rectangle or triangle of conductor at height `z`, belonging to net `net`.
 #[derive(Clone, Copy, Debug)]
 pub struct Cell {
     /// Index of the net in [`Layout::nets`].
     pub net: usize,
-    /// The cell (m).
-    pub rect: Rect,
+    /// The cell's plane shape (m).
+    pub shape: CellShape,
     /// Height of its face (m).
     pub z: f64,
+}
+
+impl Cell {
+    /// Area (m²).
+    pub fn area(&self) -> f64 {
+        self.shape.area()
+    }
+
+    /// Area centroid `[x, y, z]` (m).
+    pub fn centroid(&self) -> [f64; 3] {
+        let [x, y] = self.shape.centroid();
+        [x, y, self.z]
+    }
 }
 
 /// The cells of all nets, ordered net by net.
@@ -48,15 +110,9 @@ pub struct Mesh {
 }
 
 impl Mesh {
-    /// Centre `[x, y, z]` (m) of every cell, in cell order.
+    /// Area centroid `[x, y, z]` (m) of every cell, in cell order.
     pub fn centroids(&self) -> Vec<[f64; 3]> {
-        self.cells
-            .iter()
-            .map(|c| {
-                let [x, y] = c.rect.center();
-                [x, y, c.z]
-            })
-            .collect()
+        self.cells.iter().map(Cell::centroid).collect()
     }
 
     /// Range of cell indices of net `net` (empty if out of range).
@@ -68,7 +124,7 @@ impl Mesh {
 
     /// Total cell area (m²).
     pub fn area(&self) -> f64 {
-        self.cells.iter().map(|c| c.rect.area()).sum()
+        self.cells.iter().map(Cell::area).sum()
     }
 }
 
@@ -200,6 +256,9 @@ fn axes(region: &Region, opts: MeshOptions) -> (Axis, Axis) {
 }
 
 fn region_cells(region: &Region, opts: MeshOptions) -> usize {
+    if !region.is_manhattan() {
+        return triangulate::estimate(&region.outline, opts);
+    }
     let (ax, ay) = axes(region, opts);
     region.rects.iter().fold(0usize, |sum, r| {
         let nx = ax.node(r.x1).saturating_sub(ax.node(r.x0));
@@ -208,8 +267,11 @@ fn region_cells(region: &Region, opts: MeshOptions) -> usize {
     })
 }
 
-/// Number of cells [`mesh`] would make, computed from the 1-D cell counts without building
-/// any cell (exact; saturates at `usize::MAX`).
+/// Number of cells [`mesh`] would make, without building any cell; saturates at `usize::MAX`.
+///
+/// Exact for Manhattan regions (computed from the 1-D cell counts). For triangle-meshed
+/// regions it is an estimate from the region's area and perimeter and the size target (see
+/// the module documentation), typically within 20 % of the actual count.
 pub fn estimate_cells(layout: &Layout) -> usize {
     layout
         .nets
@@ -219,7 +281,9 @@ pub fn estimate_cells(layout: &Layout) -> usize {
 }
 
 /// Cuts every net of `layout` into cells (see the module documentation). Fails when
-/// `mesh.max_cell` is not positive, or when the mesh would exceed [`MAX_CELLS`] cells.
+/// `mesh.max_cell` is not positive, when the mesh would exceed [`MAX_CELLS`] cells (as
+/// estimated beforehand, or as found while triangulating), or when a region's outline cannot
+/// be triangulated.
 pub fn mesh(layout: &Layout) -> Result<Mesh, LayoutError> {
     let ctx = Ctx { file: &layout.file };
     let opts = layout.mesh;
@@ -246,22 +310,69 @@ pub fn mesh(layout: &Layout) -> Result<Mesh, LayoutError> {
     for (i, net) in layout.nets.iter().enumerate() {
         let before = cells.len();
         for region in &net.regions {
-            let (ax, ay) = axes(region, opts);
-            let (xn, yn) = (ax.nodes(opts), ay.nodes(opts));
-            for r in &region.rects {
-                let (i0, i1) = (ax.node(r.x0), ax.node(r.x1));
-                let (j0, j1) = (ay.node(r.y0), ay.node(r.y1));
-                for j in j0..j1.min(yn.len().saturating_sub(1)) {
-                    for k in i0..i1.min(xn.len().saturating_sub(1)) {
-                        let rect = Rect { x0: xn[k], x1: xn[k + 1], y0: yn[j], y1: yn[j + 1] };
-                        cells.push(Cell { net: i, rect, z: region.z });
-                    }
-                }
+            if region.is_manhattan() {
+                rect_cells(region, i, opts, &mut cells);
+                continue;
             }
+            let budget = MAX_CELLS.saturating_sub(cells.len());
+            let triangles = triangulate::triangulate(&region.outline, opts, budget).map_err(|e| {
+                let at = format!("net {} on face {}", fmt_str(&net.name), fmt_str(&region.face));
+                match e {
+                    TriangulateError::TooMany => ctx.invalid(
+                        "mesh.max_cell",
+                        shown.clone(),
+                        format!(
+                            "the triangle mesh of {at} takes the mesh past the limit of {MAX_CELLS} cells \
+                             (estimated {estimate} in all)"
+                        ),
+                        "raise max_cell (the count grows as 1/max_cell^2), or set edge_refine = false",
+                    ),
+                    TriangulateError::Crossing => ctx.invalid(
+                        format!("net[{i}]"),
+                        at,
+                        "the outline of the merged shapes has edges that cross after rounding, so it cannot \
+                         be triangulated",
+                        "make parts of the net that nearly touch either overlap clearly or keep a clear gap",
+                    ),
+                    TriangulateError::Insertion(why) => ctx.invalid(
+                        format!("net[{i}]"),
+                        at,
+                        format!("a point of the outline could not be triangulated ({why})"),
+                        "check the coordinates for huge or tiny values",
+                    ),
+                    TriangulateError::Area(got, want) => ctx.invalid(
+                        format!("net[{i}]"),
+                        at,
+                        format!("the triangles cover {got:e} m² instead of the outline's {want:e} m²"),
+                        "this is a meshing failure; simplify the shapes near tight corners and report the layout",
+                    ),
+                }
+            })?;
+            cells.extend(triangles.into_iter().map(|t| Cell {
+                net: i,
+                shape: CellShape::Triangle(t),
+                z: region.z,
+            }));
         }
         cells_per_net.push(cells.len() - before);
     }
     Ok(Mesh { cells, cells_per_net })
+}
+
+/// Appends the rectangular cells of the Manhattan `region` of net `net`.
+fn rect_cells(region: &Region, net: usize, opts: MeshOptions, cells: &mut Vec<Cell>) {
+    let (ax, ay) = axes(region, opts);
+    let (xn, yn) = (ax.nodes(opts), ay.nodes(opts));
+    for r in &region.rects {
+        let (i0, i1) = (ax.node(r.x0), ax.node(r.x1));
+        let (j0, j1) = (ay.node(r.y0), ay.node(r.y1));
+        for j in j0..j1.min(yn.len().saturating_sub(1)) {
+            for k in i0..i1.min(xn.len().saturating_sub(1)) {
+                let rect = Rect { x0: xn[k], x1: xn[k + 1], y0: yn[j], y1: yn[j + 1] };
+                cells.push(Cell { net, shape: CellShape::Rect(rect), z: region.z });
+            }
+        }
+    }
 }
 
 #[cfg(test)]

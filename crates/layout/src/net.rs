@@ -1,15 +1,18 @@
 //! Nets: named conductors, each the union of its shapes, split by the face they sit on.
 //!
-//! Shapes of one net may overlap; they are merged per face into non-overlapping rectangles.
-//! Shapes of different nets on the same face must keep a gap: touching (sharing an edge piece
-//! or a corner) or overlapping is an error, since it would short the two nets.
+//! Shapes of one net may overlap; they are merged per face: into non-overlapping rectangles
+//! when all of the net's shapes on that face are Manhattan, otherwise into the boundary
+//! contours of their union. Shapes of different nets on the same face must keep a gap:
+//! touching (sharing an edge piece or a corner, up to a billionth of the face's extent) or
+//! overlapping is an error, since it would short the two nets.
 
 use crate::error::{Ctx, LayoutError, MISSING, fmt_str};
 use crate::file::RawNet;
+use crate::polygon::{self, perimeter, signed_area};
 use crate::rect::Rect;
 use crate::shapes::{self, Face};
 use crate::stackup::Stackup;
-use crate::union::{snap_rects, union};
+use crate::union::{snap_face, union, union_polygons};
 use crate::units::Unit;
 
 /// A net: one conductor (possibly in several pieces and on several faces) at one potential.
@@ -21,15 +24,21 @@ pub struct Net {
     pub regions: Vec<Region>,
 }
 
-/// The part of a net on one face: non-overlapping rectangles in metres.
+/// The part of a net on one face, in metres: non-overlapping rectangles when all the net's
+/// shapes on that face are Manhattan, otherwise the boundary contours of their union.
 #[derive(Clone, Debug, PartialEq)]
 pub struct Region {
     /// Layer name whose top face holds the region, or `z=<value>` (layout units) in free space.
     pub face: String,
     /// Height of the face (m).
     pub z: f64,
-    /// Non-overlapping rectangles whose union is the region (m).
+    /// Manhattan region: non-overlapping rectangles whose union is the region (m). Empty for a
+    /// non-Manhattan region.
     pub rects: Vec<Rect>,
+    /// Non-Manhattan region: closed boundary contours of the region (m; each closes by
+    /// itself), outer boundaries counter-clockwise and holes clockwise, so that their shoelace
+    /// areas add up to the region's area. Empty for a Manhattan region.
+    pub outline: Vec<Vec<[f64; 2]>>,
 }
 
 impl Net {
@@ -40,18 +49,49 @@ impl Net {
 }
 
 impl Region {
-    /// Area (m²): the sum of the rectangle areas, exact since they do not overlap.
+    /// Area (m²): the sum of the rectangle areas (exact, since they do not overlap) plus the
+    /// signed shoelace areas of the outline contours (holes count negative).
     pub fn area(&self) -> f64 {
-        self.rects.iter().map(Rect::area).sum()
+        self.rects.iter().map(Rect::area).sum::<f64>()
+            + self.outline.iter().map(|c| signed_area(c)).sum::<f64>()
+    }
+
+    /// Whether the region is made of rectangles (meshed into rectangular cells) rather than an
+    /// outline (meshed into triangles).
+    pub fn is_manhattan(&self) -> bool {
+        self.outline.is_empty()
     }
 }
 
-/// A rectangle of a shape, with where it came from.
-#[derive(Clone, Copy, Debug)]
+/// A piece of a shape (layout units), with where it came from: a rectangle, or a simple
+/// counter-clockwise polygon `poly` whose bounding box is `rect`.
+#[derive(Clone, Debug)]
 struct Piece {
     net: usize,
     shape: usize,
     rect: Rect,
+    poly: Option<Vec<[f64; 2]>>,
+}
+
+impl Piece {
+    /// The piece as a counter-clockwise polygon.
+    fn outline(&self) -> Vec<[f64; 2]> {
+        match &self.poly {
+            Some(p) => p.clone(),
+            None => {
+                let r = self.rect;
+                vec![[r.x0, r.y0], [r.x1, r.y0], [r.x1, r.y1], [r.x0, r.y1]]
+            }
+        }
+    }
+}
+
+/// Bounding box of a polygon's vertices.
+fn bounding_box(pts: &[[f64; 2]]) -> Rect {
+    pts.iter().fold(
+        Rect { x0: f64::INFINITY, x1: f64::NEG_INFINITY, y0: f64::INFINITY, y1: f64::NEG_INFINITY },
+        |r, p| Rect { x0: r.x0.min(p[0]), x1: r.x1.max(p[0]), y0: r.y0.min(p[1]), y1: r.y1.max(p[1]) },
+    )
 }
 
 /// Validates the nets and builds their regions (metres).
@@ -126,33 +166,60 @@ pub(crate) fn build(
             if !mine.contains(&f) {
                 mine.push(f);
             }
-            pieces[f].extend(placed.rects.iter().map(|&rect| Piece { net: i, shape: j, rect }));
+            pieces[f].extend(placed.rects.iter().map(|&rect| Piece { net: i, shape: j, rect, poly: None }));
+            pieces[f].extend(placed.polys.into_iter().map(|p| Piece {
+                net: i,
+                shape: j,
+                rect: bounding_box(&p),
+                poly: Some(p),
+            }));
         }
         net_faces.push(mine);
     }
 
     // Per face: snap nearly equal coordinates, refuse contacts between nets, merge per net.
-    let mut regions: Vec<Vec<Option<Vec<Rect>>>> = vec![vec![None; faces.len()]; raw.len()];
+    let mut regions: Vec<Vec<Option<Merged>>> = vec![vec![None; faces.len()]; raw.len()];
     for (f, face_pieces) in pieces.iter_mut().enumerate() {
-        let mut rects: Vec<Rect> = face_pieces.iter().map(|p| p.rect).collect();
-        snap_rects(&mut rects);
-        for (p, r) in face_pieces.iter_mut().zip(&rects) {
-            if !(r.x0 < r.x1 && r.y0 < r.y1) {
+        let mut rects: Vec<Rect> = face_pieces.iter().filter(|p| p.poly.is_none()).map(|p| p.rect).collect();
+        let mut polys: Vec<Vec<[f64; 2]>> = face_pieces.iter().filter_map(|p| p.poly.clone()).collect();
+        let tol = snap_face(&mut rects, &mut polys);
+        let (mut rects, mut polys) = (rects.into_iter(), polys.into_iter());
+        for p in face_pieces.iter_mut() {
+            // The extent as written (before snapping), for the message.
+            let written = p.rect;
+            let thin = match &mut p.poly {
+                None => {
+                    p.rect = rects.next().unwrap_or(p.rect);
+                    !(p.rect.x0 < p.rect.x1 && p.rect.y0 < p.rect.y1)
+                }
+                Some(poly) => {
+                    *poly = polys.next().unwrap_or_default();
+                    p.rect = bounding_box(poly);
+                    // Mean thickness (area over half the perimeter) at most twice the tolerance.
+                    poly.len() < 3 || signed_area(poly) <= tol * perimeter(poly)
+                }
+            };
+            if thin {
                 return Err(ctx.invalid(
                     format!("net[{}].shapes[{}]", p.net, p.shape),
-                    format!("[{}, {}] x [{}, {}]", p.rect.x0, p.rect.x1, p.rect.y0, p.rect.y1),
+                    format!("[{}, {}] x [{}, {}]", written.x0, written.x1, written.y0, written.y1),
                     "the shape is thinner than a billionth of the layout's extent",
                     "remove the sliver or widen it",
                 ));
             }
-            p.rect = *r;
         }
-        check_contacts(face_pieces, &names, &faces[f], ctx)?;
+        check_contacts(face_pieces, &names, &faces[f], tol, ctx)?;
         for (i, net_regions) in regions.iter_mut().enumerate() {
-            let mine: Vec<Rect> = face_pieces.iter().filter(|p| p.net == i).map(|p| p.rect).collect();
-            if !mine.is_empty() {
-                net_regions[f] = Some(union(&mine));
+            let mine: Vec<&Piece> = face_pieces.iter().filter(|p| p.net == i).collect();
+            if mine.is_empty() {
+                continue;
             }
+            net_regions[f] = Some(if mine.iter().all(|p| p.poly.is_none()) {
+                Merged::Rects(union(&mine.iter().map(|p| p.rect).collect::<Vec<_>>()))
+            } else {
+                let outlines: Vec<Vec<[f64; 2]>> = mine.iter().map(|p| p.outline()).collect();
+                Merged::Outline(union_polygons(&outlines, tol))
+            });
         }
     }
 
@@ -160,19 +227,20 @@ pub(crate) fn build(
     for (i, name) in names.into_iter().enumerate() {
         let mut net_regions = Vec::new();
         for &f in &net_faces[i] {
-            let rects = regions[i][f].take().unwrap_or_default();
+            let (rects, outline) = match regions[i][f].take() {
+                Some(Merged::Rects(r)) => (r, Vec::new()),
+                Some(Merged::Outline(o)) => (Vec::new(), o),
+                None => (Vec::new(), Vec::new()),
+            };
+            let m = |v: f64| unit.to_metres(v);
             net_regions.push(Region {
                 face: faces[f].name.clone(),
                 z: faces[f].z,
                 rects: rects
                     .iter()
-                    .map(|r| Rect {
-                        x0: unit.to_metres(r.x0),
-                        x1: unit.to_metres(r.x1),
-                        y0: unit.to_metres(r.y0),
-                        y1: unit.to_metres(r.y1),
-                    })
+                    .map(|r| Rect { x0: m(r.x0), x1: m(r.x1), y0: m(r.y0), y1: m(r.y1) })
                     .collect(),
+                outline: outline.iter().map(|c| c.iter().map(|p| [m(p[0]), m(p[1])]).collect()).collect(),
             });
         }
         nets.push(Net { name, regions: net_regions });
@@ -180,14 +248,39 @@ pub(crate) fn build(
     Ok(nets)
 }
 
-/// Refuses any two pieces of different nets whose closed rectangles intersect.
-fn check_contacts(pieces: &[Piece], names: &[String], face: &Face, ctx: Ctx<'_>) -> Result<(), LayoutError> {
+/// The merged part of one net on one face (layout units).
+#[derive(Clone, Debug)]
+enum Merged {
+    /// Non-overlapping rectangles (all pieces were rectangles).
+    Rects(Vec<Rect>),
+    /// Boundary contours of the union (some piece was an oblique polygon).
+    Outline(Vec<Vec<[f64; 2]>>),
+}
+
+/// Whether two pieces of one face touch or overlap: exactly for two rectangles (whose
+/// coordinates were snapped with tolerance `tol`), and within `tol` when a polygon is involved.
+fn pieces_touch(a: &Piece, b: &Piece, tol: f64) -> bool {
+    if a.poly.is_none() && b.poly.is_none() {
+        return a.rect.touches(&b.rect);
+    }
+    let grown = Rect { x0: a.rect.x0 - tol, x1: a.rect.x1 + tol, y0: a.rect.y0 - tol, y1: a.rect.y1 + tol };
+    grown.touches(&b.rect) && polygon::polygons_touch(&a.outline(), &b.outline(), tol)
+}
+
+/// Refuses any two pieces of different nets that touch or overlap (see [`pieces_touch`]).
+fn check_contacts(
+    pieces: &[Piece],
+    names: &[String],
+    face: &Face,
+    tol: f64,
+    ctx: Ctx<'_>,
+) -> Result<(), LayoutError> {
     let mut order: Vec<&Piece> = pieces.iter().collect();
     order.sort_by(|a, b| a.rect.x0.total_cmp(&b.rect.x0).then(a.net.cmp(&b.net)).then(a.shape.cmp(&b.shape)));
     let mut found: Option<(&Piece, &Piece)> = None;
     for (k, a) in order.iter().enumerate() {
-        for b in order[k + 1..].iter().take_while(|b| b.rect.x0 <= a.rect.x1) {
-            if a.net != b.net && a.rect.touches(&b.rect) {
+        for b in order[k + 1..].iter().take_while(|b| b.rect.x0 <= a.rect.x1 + tol) {
+            if a.net != b.net && pieces_touch(a, b, tol) {
                 let (lo, hi) = if (a.net, a.shape) < (b.net, b.shape) { (*a, *b) } else { (*b, *a) };
                 // Report the contact between the lowest-numbered shapes, for a stable message.
                 if found.is_none_or(|(l, h)| {

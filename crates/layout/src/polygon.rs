@@ -1,20 +1,22 @@
-//! Plane polygon geometry: signed area, simplicity, and the decomposition of a Manhattan
-//! polygon into rectangles.
+//! Plane polygon geometry: signed area, simplicity, distances and containment, the outline of
+//! a widened trace segment, and the decomposition of a Manhattan polygon into rectangles.
 //!
 //! A polygon is a list of vertices, closed implicitly (edge `i` runs from vertex `i` to vertex
-//! `i + 1 mod n`). The simplicity test is general; only the decomposition needs axis-aligned edges.
+//! `i + 1 mod n`). Everything is general except the decomposition, which needs axis-aligned edges.
 
 use crate::rect::Rect;
 
 /// Signed area by the shoelace formula (elementary geometry): positive for counter-clockwise
-/// vertex order.
+/// vertex order. Coordinates are taken relative to the first vertex, which leaves the area
+/// unchanged but avoids cancellation for a small polygon far from the origin.
 pub(crate) fn signed_area(pts: &[[f64; 2]]) -> f64 {
     let n = pts.len();
+    let Some(&[ox, oy]) = pts.first() else { return 0.0 };
     let mut twice = 0.0;
     for i in 0..n {
         let [x0, y0] = pts[i];
         let [x1, y1] = pts[(i + 1) % n];
-        twice += x0 * y1 - x1 * y0;
+        twice += (x0 - ox) * (y1 - oy) - (x1 - ox) * (y0 - oy);
     }
     0.5 * twice
 }
@@ -81,6 +83,99 @@ pub(crate) fn self_intersection(pts: &[[f64; 2]]) -> Option<(usize, usize)> {
         }
     }
     None
+}
+
+/// Length of the boundary (sum of the edge lengths).
+pub(crate) fn perimeter(pts: &[[f64; 2]]) -> f64 {
+    let n = pts.len();
+    (0..n).map(|i| dist(pts[i], pts[(i + 1) % n])).sum()
+}
+
+/// Euclidean distance between two points.
+pub(crate) fn dist(a: [f64; 2], b: [f64; 2]) -> f64 {
+    (b[0] - a[0]).hypot(b[1] - a[1])
+}
+
+/// The polygon with its vertices in counter-clockwise order (positive shoelace area).
+pub(crate) fn counter_clockwise(mut pts: Vec<[f64; 2]>) -> Vec<[f64; 2]> {
+    if signed_area(&pts) < 0.0 {
+        pts.reverse();
+    }
+    pts
+}
+
+/// The four corners, counter-clockwise, of the rectangle covered by the segment `a–b` widened
+/// to `width` and extended by `width/2` past both ends. `a ≠ b`.
+pub(crate) fn widened_segment(a: [f64; 2], b: [f64; 2], width: f64) -> Vec<[f64; 2]> {
+    let len = dist(a, b);
+    let h = 0.5 * width;
+    // Unit direction u and left normal n, scaled by the half width.
+    let u = [h * (b[0] - a[0]) / len, h * (b[1] - a[1]) / len];
+    let n = [-u[1], u[0]];
+    vec![
+        [a[0] - u[0] - n[0], a[1] - u[1] - n[1]],
+        [b[0] + u[0] - n[0], b[1] + u[1] - n[1]],
+        [b[0] + u[0] + n[0], b[1] + u[1] + n[1]],
+        [a[0] - u[0] + n[0], a[1] - u[1] + n[1]],
+    ]
+}
+
+/// Distance from point `p` to the closed segment `a–b`.
+pub(crate) fn point_segment_distance(p: [f64; 2], a: [f64; 2], b: [f64; 2]) -> f64 {
+    let d = [b[0] - a[0], b[1] - a[1]];
+    let len2 = d[0] * d[0] + d[1] * d[1];
+    let t =
+        if len2 > 0.0 { (((p[0] - a[0]) * d[0] + (p[1] - a[1]) * d[1]) / len2).clamp(0.0, 1.0) } else { 0.0 };
+    dist(p, [a[0] + t * d[0], a[1] + t * d[1]])
+}
+
+/// Distance between the closed segments `p1–p2` and `q1–q2`: zero when they meet, otherwise
+/// attained at an endpoint of one of them.
+pub(crate) fn segment_distance(p1: [f64; 2], p2: [f64; 2], q1: [f64; 2], q2: [f64; 2]) -> f64 {
+    if segments_intersect(p1, p2, q1, q2) {
+        return 0.0;
+    }
+    point_segment_distance(p1, q1, q2)
+        .min(point_segment_distance(p2, q1, q2))
+        .min(point_segment_distance(q1, p1, p2))
+        .min(point_segment_distance(q2, p1, p2))
+}
+
+/// Whether `p` lies inside the polygon, by the even–odd crossing rule (a horizontal ray from
+/// `p`); points on the boundary may go either way.
+pub(crate) fn contains(pts: &[[f64; 2]], p: [f64; 2]) -> bool {
+    let n = pts.len();
+    let mut inside = false;
+    for i in 0..n {
+        let a = pts[i];
+        let b = pts[(i + 1) % n];
+        if (a[1] > p[1]) != (b[1] > p[1]) {
+            let x = a[0] + (p[1] - a[1]) / (b[1] - a[1]) * (b[0] - a[0]);
+            if p[0] < x {
+                inside = !inside;
+            }
+        }
+    }
+    inside
+}
+
+/// Whether two simple polygons come within `tol` of each other (touch, overlap, or one
+/// contains the other).
+///
+/// Either some edge of `a` is within `tol` of some edge of `b`, or the boundaries are apart
+/// and then the interiors meet only if one polygon lies inside the other (a simple polygon's
+/// boundary is connected), which a vertex of each, tested against the other, reveals.
+pub(crate) fn polygons_touch(a: &[[f64; 2]], b: &[[f64; 2]], tol: f64) -> bool {
+    let (na, nb) = (a.len(), b.len());
+    for i in 0..na {
+        let (p1, p2) = (a[i], a[(i + 1) % na]);
+        for j in 0..nb {
+            if segment_distance(p1, p2, b[j], b[(j + 1) % nb]) <= tol {
+                return true;
+            }
+        }
+    }
+    (na > 0 && contains(b, a[0])) || (nb > 0 && contains(a, b[0]))
 }
 
 /// Index of the first edge that is not axis-aligned, if any.
@@ -171,5 +266,34 @@ mod tests {
         assert!(self_intersection(&fold).is_some());
         assert_eq!(first_oblique_edge(&L), None);
         assert_eq!(first_oblique_edge(&bow), Some(0));
+    }
+
+    #[test]
+    fn widened_segment_is_a_counter_clockwise_rectangle() {
+        // The 3-4-5 right triangle (elementary geometry): a segment of length 5, widened to 0.2
+        // and extended by 0.1 at both ends, covers 5.2 × 0.2 = 1.04.
+        let r = widened_segment([0.0, 0.0], [3.0, 4.0], 0.2);
+        assert!((signed_area(&r) - 1.04).abs() < 1e-14, "{}", signed_area(&r));
+        assert!((perimeter(&r) - 2.0 * (5.2 + 0.2)).abs() < 1e-13);
+        assert!(contains(&r, [1.5, 2.0]) && !contains(&r, [2.0, 1.0]));
+    }
+
+    #[test]
+    fn distances_and_touching() {
+        // Pythagoras: from (3, 4) to the origin end of the x axis segment [−1, 0]..[0, 0] is 5.
+        assert_eq!(point_segment_distance([3.0, 4.0], [-1.0, 0.0], [0.0, 0.0]), 5.0);
+        assert_eq!(point_segment_distance([0.5, 2.0], [0.0, 0.0], [1.0, 0.0]), 2.0);
+        assert_eq!(segment_distance([0.0, 0.0], [2.0, 2.0], [0.0, 2.0], [2.0, 0.0]), 0.0);
+        assert_eq!(segment_distance([0.0, 0.0], [1.0, 0.0], [0.0, 1.0], [1.0, 1.0]), 1.0);
+        let tri = counter_clockwise(vec![[0.0, 0.0], [0.0, 1.0], [1.0, 0.0]]);
+        assert!(signed_area(&tri) > 0.0);
+        // Touching along the hypotenuse x + y = 1, apart, and nested.
+        let other = [[1.0, 0.0], [1.0, 1.0], [0.0, 1.0]];
+        assert!(polygons_touch(&tri, &other, 0.0));
+        let apart = [[1.0, 0.1], [1.0, 1.0], [0.1, 1.0]];
+        assert!(!polygons_touch(&tri, &apart, 1e-9));
+        assert!(polygons_touch(&tri, &apart, 0.1));
+        let inner = [[0.1, 0.1], [0.3, 0.1], [0.1, 0.3]];
+        assert!(polygons_touch(&tri, &inner, 0.0) && polygons_touch(&inner, &tri, 0.0));
     }
 }

@@ -1,9 +1,9 @@
 //! Conductor shapes (trace, rect, polygon): validation, the face each sits on, and their
-//! decomposition into rectangles (in layout units; they may overlap).
+//! decomposition into pieces (in layout units; they may overlap).
 //!
-//! This version handles Manhattan geometry only: every trace segment and polygon edge must be
-//! axis-aligned. Oblique geometry is refused by [`require_manhattan_path`] and
-//! [`require_manhattan_polygon`]; a later triangle decomposition can take over there.
+//! A Manhattan shape (every trace segment and polygon edge axis-aligned) becomes rectangles.
+//! A shape with an oblique segment or edge becomes simple counter-clockwise polygons instead:
+//! the polygon itself, or one widened rectangle per trace segment.
 
 use crate::error::{Ctx, LayoutError, MISSING, fmt_coords, fmt_point, fmt_points, fmt_str};
 use crate::file::{RawPoint, RawPolygon, RawRect, RawShape, RawTrace};
@@ -21,11 +21,13 @@ pub(crate) struct Face {
     pub z: f64,
 }
 
-/// A validated shape: its face and rectangles (layout units) whose union is the shape.
+/// A validated shape: its face and the pieces (layout units) whose union is the shape, either
+/// rectangles (a Manhattan shape) or simple counter-clockwise polygons (otherwise).
 #[derive(Clone, Debug)]
 pub(crate) struct Placed {
     pub face: Face,
     pub rects: Vec<Rect>,
+    pub polys: Vec<Vec<[f64; 2]>>,
 }
 
 /// Validates shape `raw`, found at field path `at` (e.g. `net[0].shapes[2]`).
@@ -159,37 +161,6 @@ fn distinct_consecutive(pts: &[[f64; 2]], closed: bool, at: &str, ctx: Ctx<'_>) 
     Ok(())
 }
 
-/// Refuses a trace path with an oblique segment (not supported yet).
-pub(crate) fn require_manhattan_path(pts: &[[f64; 2]], at: &str, ctx: Ctx<'_>) -> Result<(), LayoutError> {
-    for (k, w) in pts.windows(2).enumerate() {
-        if w[0][0] != w[1][0] && w[0][1] != w[1][1] {
-            return Err(ctx.unsupported(
-                format!("{at}[{}]", k + 1),
-                format!("{} -> {}", fmt_point(w[0]), fmt_point(w[1])),
-                format!("the segment from {at}[{k}] is not axis-aligned: non-Manhattan geometry"),
-                "approximate it with axis-aligned segments (a staircase)",
-            ));
-        }
-    }
-    Ok(())
-}
-
-/// Refuses a polygon with an oblique edge (not supported yet).
-pub(crate) fn require_manhattan_polygon(pts: &[[f64; 2]], at: &str, ctx: Ctx<'_>) -> Result<(), LayoutError> {
-    match polygon::first_oblique_edge(pts) {
-        Some(k) => {
-            let next = (k + 1) % pts.len();
-            Err(ctx.unsupported(
-                format!("{at}[{next}]"),
-                format!("{} -> {}", fmt_point(pts[k]), fmt_point(pts[next])),
-                format!("the edge from {at}[{k}] is not axis-aligned: a non-Manhattan polygon"),
-                "approximate it with axis-aligned edges or rectangles",
-            ))
-        }
-        None => Ok(()),
-    }
-}
-
 fn trace(t: &RawTrace, at: &str, stackup: &Stackup, unit: Unit, ctx: Ctx<'_>) -> Result<Placed, LayoutError> {
     let face = face(t.on.as_deref(), t.z, at, stackup, unit, ctx)?;
     let width = match t.width {
@@ -225,9 +196,15 @@ fn trace(t: &RawTrace, at: &str, stackup: &Stackup, unit: Unit, ctx: Ctx<'_>) ->
         ));
     }
     distinct_consecutive(&path, false, &path_at, ctx)?;
-    require_manhattan_path(&path, &path_at, ctx)?;
-    // Each axis-aligned segment becomes a rectangle of the trace width, extended by half the
-    // width past both ends so that bends are filled (the overlaps are merged later).
+    // Each segment becomes a rectangle of the trace width, extended by half the width past both
+    // ends so that bends are filled (the overlaps are merged later); axis-aligned rectangles
+    // when all segments are axis-aligned, rotated ones (polygons) otherwise.
+    if path.windows(2).any(|w| w[0][0] != w[1][0] && w[0][1] != w[1][1]) {
+        let polys: Vec<Vec<[f64; 2]>> =
+            path.windows(2).map(|w| polygon::widened_segment(w[0], w[1], width)).collect();
+        check_finite(&polys, at, ctx)?;
+        return Ok(Placed { face, rects: Vec::new(), polys });
+    }
     let h = 0.5 * width;
     let rects: Vec<Rect> = path
         .windows(2)
@@ -242,7 +219,7 @@ fn trace(t: &RawTrace, at: &str, stackup: &Stackup, unit: Unit, ctx: Ctx<'_>) ->
         })
         .collect();
     check_proper(&rects, at, ctx)?;
-    Ok(Placed { face, rects })
+    Ok(Placed { face, rects, polys: Vec::new() })
 }
 
 fn rect(r: &RawRect, at: &str, stackup: &Stackup, unit: Unit, ctx: Ctx<'_>) -> Result<Placed, LayoutError> {
@@ -272,7 +249,7 @@ fn rect(r: &RawRect, at: &str, stackup: &Stackup, unit: Unit, ctx: Ctx<'_>) -> R
         }
     }
     let rects = vec![Rect { x0: min[0], x1: max[0], y0: min[1], y1: max[1] }];
-    Ok(Placed { face, rects })
+    Ok(Placed { face, rects, polys: Vec::new() })
 }
 
 fn polygon(
@@ -330,10 +307,25 @@ fn polygon(
             "list the corners in order around the outline; split a figure-eight into two polygons",
         ));
     }
-    require_manhattan_polygon(&pts, &pts_at, ctx)?;
+    if polygon::first_oblique_edge(&pts).is_some() {
+        return Ok(Placed { face, rects: Vec::new(), polys: vec![polygon::counter_clockwise(pts)] });
+    }
     let rects = polygon::manhattan_to_rects(&pts);
     check_proper(&rects, at, ctx)?;
-    Ok(Placed { face, rects })
+    Ok(Placed { face, rects, polys: Vec::new() })
+}
+
+/// Guards against overflow to infinity in the corners of widened oblique segments.
+fn check_finite(polys: &[Vec<[f64; 2]>], at: &str, ctx: Ctx<'_>) -> Result<(), LayoutError> {
+    match polys.iter().find(|p| p.iter().flatten().any(|v| !v.is_finite())) {
+        Some(p) => Err(ctx.invalid(
+            at,
+            fmt_points(p),
+            "the outline of a widened segment is not finite",
+            "check the coordinates and the width for huge values",
+        )),
+        None => Ok(()),
+    }
 }
 
 /// Guards against overflow to infinity in derived coordinates.

@@ -1,8 +1,13 @@
-//! Union of possibly overlapping rectangles into non-overlapping ones, and snapping of nearly
-//! equal coordinates.
+//! Union of possibly overlapping rectangles into non-overlapping ones, union of polygons into
+//! boundary contours, and snapping of nearly equal coordinates.
 
 use std::collections::HashMap;
 
+use i_overlay::core::fill_rule::FillRule;
+use i_overlay::core::overlay_rule::OverlayRule;
+use i_overlay::float::overlay::FloatOverlay;
+
+use crate::polygon::{perimeter, point_segment_distance, signed_area};
 use crate::rect::Rect;
 
 /// Relative tolerance below which two coordinates of one face count as the same line.
@@ -46,26 +51,91 @@ impl Snapper {
     }
 }
 
-/// Snaps the x and y coordinates of all `rects` (one face, all nets) with tolerance
-/// [`SNAP_RELATIVE`] times the largest of the extent and the coordinate magnitudes.
-/// A rectangle may become degenerate (zero width) if it was thinner than the tolerance.
+/// Snaps the x and y coordinates of all `rects` (one face, all nets); see [`snap_face`].
+#[cfg(test)]
 pub(crate) fn snap_rects(rects: &mut [Rect]) {
-    if rects.is_empty() {
-        return;
-    }
+    snap_face(rects, &mut []);
+}
+
+/// Snaps the x and y coordinates of all `rects` and polygon vertices `polys` (one face, all
+/// nets) with tolerance [`SNAP_RELATIVE`] times the largest of the extent and the coordinate
+/// magnitudes, and returns that tolerance (0 when there is nothing to snap). A rectangle may
+/// become degenerate (zero width) if it was thinner than the tolerance.
+pub(crate) fn snap_face(rects: &mut [Rect], polys: &mut [Vec<[f64; 2]>]) -> f64 {
+    let xs = || rects.iter().flat_map(|r| [r.x0, r.x1]).chain(polys.iter().flatten().map(|p| p[0]));
+    let ys = || rects.iter().flat_map(|r| [r.y0, r.y1]).chain(polys.iter().flatten().map(|p| p[1]));
     let (mut lo, mut hi, mut mag) = (f64::INFINITY, f64::NEG_INFINITY, 0.0f64);
-    for r in rects.iter() {
-        for v in [r.x0, r.x1, r.y0, r.y1] {
-            lo = lo.min(v);
-            hi = hi.max(v);
-            mag = mag.max(v.abs());
-        }
+    for v in xs().chain(ys()) {
+        lo = lo.min(v);
+        hi = hi.max(v);
+        mag = mag.max(v.abs());
+    }
+    if lo > hi {
+        return 0.0;
     }
     let tol = SNAP_RELATIVE * (hi - lo).max(mag);
-    let sx = Snapper::new(rects.iter().flat_map(|r| [r.x0, r.x1]).collect(), tol);
-    let sy = Snapper::new(rects.iter().flat_map(|r| [r.y0, r.y1]).collect(), tol);
+    let sx = Snapper::new(xs().collect(), tol);
+    let sy = Snapper::new(ys().collect(), tol);
     for r in rects.iter_mut() {
         *r = Rect { x0: sx.snap(r.x0), x1: sx.snap(r.x1), y0: sy.snap(r.y0), y1: sy.snap(r.y1) };
+    }
+    for p in polys.iter_mut().flatten() {
+        *p = [sx.snap(p[0]), sy.snap(p[1])];
+    }
+    tol
+}
+
+/// Boundary contours of the union of the polygons `polys` (each simple and
+/// counter-clockwise): outer boundaries counter-clockwise, holes clockwise, so that the
+/// shoelace areas of all contours add up to the area of the union.
+///
+/// The union is computed by `i_overlay` on a 64-bit integer grid about 2⁻⁶⁰ of the extent
+/// fine, so its vertices are the input vertices and edge crossings up to rounding. Vertices
+/// closer than `tol` to the chord joining their neighbours are then dropped (this removes the
+/// near-collinear joints and notches left by rounding), and so are contours left thinner than
+/// `tol` (area at most `tol` times the perimeter).
+pub(crate) fn union_polygons(polys: &[Vec<[f64; 2]>], tol: f64) -> Vec<Vec<[f64; 2]>> {
+    if polys.is_empty() {
+        return Vec::new();
+    }
+    let shapes =
+        FloatOverlay::<[f64; 2], i64>::from_subj(polys).overlay(OverlayRule::Subject, FillRule::NonZero);
+    shapes
+        .into_iter()
+        .flatten()
+        .map(|c| simplify(c, tol))
+        .filter(|c| c.len() >= 3 && signed_area(c).abs() > tol * perimeter(c))
+        .collect()
+}
+
+/// Drops, pass after pass, the vertices within `tol` of the chord joining their neighbours
+/// (never two neighbours in one pass), until none is left or fewer than 3 vertices remain.
+fn simplify(mut pts: Vec<[f64; 2]>, tol: f64) -> Vec<[f64; 2]> {
+    loop {
+        let n = pts.len();
+        if n < 3 {
+            return pts;
+        }
+        let mut drop = vec![false; n];
+        let mut any = false;
+        for i in 0..n {
+            let prev = (i + n - 1) % n;
+            if drop[prev] || (i == n - 1 && drop[0]) {
+                continue;
+            }
+            if point_segment_distance(pts[i], pts[prev], pts[(i + 1) % n]) <= tol {
+                drop[i] = true;
+                any = true;
+            }
+        }
+        if !any {
+            return pts;
+        }
+        let mut k = 0;
+        pts.retain(|_| {
+            k += 1;
+            !drop[k - 1]
+        });
     }
 }
 
@@ -151,6 +221,41 @@ mod tests {
     fn union_keeps_a_single_rectangle_whole() {
         let u = union(&[r(0.0, 1.0, 0.0, 5.0), r(0.0, 1.0, 1.0, 2.0), r(0.0, 1.0, 2.0, 3.0)]);
         assert_eq!(u, vec![r(0.0, 1.0, 0.0, 5.0)]);
+    }
+
+    #[test]
+    fn union_of_two_squares_as_polygons() {
+        // Inclusion–exclusion (elementary geometry): 4 + 4 − 1 = 7, one outer contour with
+        // 8 corners (counter-clockwise, hence positive shoelace area).
+        let a = vec![[0.0, 0.0], [2.0, 0.0], [2.0, 2.0], [0.0, 2.0]];
+        let b = vec![[1.0, 1.0], [3.0, 1.0], [3.0, 3.0], [1.0, 3.0]];
+        let u = union_polygons(&[a, b], 1e-9);
+        assert_eq!(u.len(), 1);
+        assert_eq!(u[0].len(), 8);
+        assert!((signed_area(&u[0]) - 7.0).abs() < 1e-12);
+    }
+
+    #[test]
+    fn union_keeps_holes_clockwise() {
+        // A square ring from four bars: outer 3 × 3 minus the 1 × 1 hole = 8.
+        let bar = |x0: f64, y0: f64, x1: f64, y1: f64| vec![[x0, y0], [x1, y0], [x1, y1], [x0, y1]];
+        let bars = [
+            bar(0.0, 0.0, 3.0, 1.0),
+            bar(2.0, 0.0, 3.0, 3.0),
+            bar(0.0, 2.0, 3.0, 3.0),
+            bar(0.0, 0.0, 1.0, 3.0),
+        ];
+        let u = union_polygons(&bars, 1e-9);
+        assert_eq!(u.len(), 2);
+        let areas: Vec<f64> = u.iter().map(|c| signed_area(c)).collect();
+        assert!(areas.iter().any(|&a| (a - 9.0).abs() < 1e-12), "{areas:?}");
+        assert!(areas.iter().any(|&a| (a + 1.0).abs() < 1e-12), "{areas:?}");
+    }
+
+    #[test]
+    fn simplify_drops_near_collinear_vertices() {
+        let sq = vec![[0.0, 0.0], [1.0, 1e-12], [2.0, 0.0], [2.0, 2.0], [1.0, 2.0], [0.0, 2.0]];
+        assert_eq!(simplify(sq, 1e-9), vec![[0.0, 0.0], [2.0, 0.0], [2.0, 2.0], [0.0, 2.0]]);
     }
 
     #[test]

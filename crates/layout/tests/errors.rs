@@ -185,13 +185,11 @@ fn traces() {
     refuse(&with("[[2, 0], [3, 0]]", "[[2, 0]]"), at, "[[2, 0]]");
     refuse(&with("[[2, 0], [3, 0]]", "[[2, 0], [2, 0], [3, 0]]"), &format!("{at}[1]"), "[2, 0]");
     refuse(&with("[[2, 0], [3, 0]]", "[[2, 0], [inf, 0]]"), &format!("{at}[1]"), "[inf, 0]");
-    let e = refuse(
-        &with("[[2, 0], [3, 0]]", "[[2, 0], [3, 0], [4, 1]]"),
-        &format!("{at}[2]"),
-        "[3, 0] -> [4, 1]",
-    );
-    assert!(is_unsupported(&e), "{e}");
-    assert!(e.to_string().contains("non-Manhattan"), "{e}");
+    // An oblique segment is accepted (the region is meshed into triangles).
+    let l = parse_str(&with("[[2, 0], [3, 0]]", "[[2, 0], [3, 0], [4, 1]]"), FILE).expect("oblique trace");
+    assert!(!l.nets[1].regions[0].is_manhattan());
+    // Coordinates so large that the segment's length, hence its widened outline, overflows.
+    refuse(&with("[[2, 0], [3, 0]]", "[[-1e308, 0], [1e308, 1]]"), "net[1].shapes[0].trace", "NaN");
 }
 
 /// BASE with net `a` made of the polygon `points`.
@@ -223,9 +221,10 @@ fn polygons() {
     // (before its oblique edges are looked at).
     let e = refuse(&with_polygon("[[0, 0], [2, 2], [2, 0], [0, 1]]"), at, "[[0, 0], [2, 2], [2, 0], [0, 1]]");
     assert!(e.to_string().contains("intersects itself"), "{e}");
-    // A simple triangle is valid geometry but not Manhattan.
-    let e = refuse(&with_polygon("[[0, 0], [1, 0], [0, 1]]"), &format!("{at}[2]"), "[1, 0] -> [0, 1]");
-    assert!(is_unsupported(&e), "{e}");
+    // A simple triangle is valid non-Manhattan geometry.
+    let l = parse_str(&with_polygon("[[0, 0], [1, 0], [0, 1]]"), FILE).expect("a triangle parses");
+    assert!(!l.nets[0].regions[0].is_manhattan());
+    assert!((l.nets[0].area() - 0.5e-6).abs() < 1e-18);
 }
 
 #[test]

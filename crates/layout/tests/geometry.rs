@@ -1,7 +1,7 @@
 //! Geometry of parsed layouts and their meshes, checked against closed-form areas
 //! (elementary geometry: inclusion–exclusion, the shoelace formula) and the mesh contract.
 
-use rafter_layout::{LayerKind, Layout, Mesh, Rect, estimate_cells, mesh, parse_str};
+use rafter_layout::{Cell, CellShape, LayerKind, Layout, Mesh, Rect, estimate_cells, mesh, parse_str};
 
 /// The example of the crate documentation.
 const EXAMPLE: &str = r#"
@@ -50,6 +50,14 @@ fn one_net(units: &str, shapes: &str, max_cell: f64, edge_refine: bool) -> Layou
     }
 }
 
+/// The rectangle of a cell of a Manhattan region.
+fn rect(c: &Cell) -> Rect {
+    match c.shape {
+        CellShape::Rect(r) => r,
+        CellShape::Triangle(t) => panic!("a Manhattan region was meshed into triangles: {t:?}"),
+    }
+}
+
 /// Checks the mesh contract: cells ordered net by net, inside their regions, non-overlapping,
 /// tiling each region exactly, none larger than max_cell; returns the smallest cell side
 /// found at the region's outer boundary (leftmost x, bottom y).
@@ -63,7 +71,7 @@ fn check_mesh(layout: &Layout, m: &Mesh) -> f64 {
         let cells: Vec<_> = m.cells[m.net_range(i)].to_vec();
         assert!(cells.iter().all(|c| c.net == i), "cells ordered net by net");
         for region in &net.regions {
-            let mine: Vec<Rect> = cells.iter().filter(|c| c.z == region.z).map(|c| c.rect).collect();
+            let mine: Vec<Rect> = cells.iter().filter(|c| c.z == region.z).map(rect).collect();
             let area: f64 = mine.iter().map(Rect::area).sum();
             assert!(close(area, region.area(), 1e-12), "tiling: {area} vs {}", region.area());
             let xmin = region.rects.iter().map(|r| r.x0).fold(f64::INFINITY, f64::min);
@@ -95,7 +103,9 @@ fn check_mesh(layout: &Layout, m: &Mesh) -> f64 {
         }
     }
     for (c, p) in m.cells.iter().zip(m.centroids()) {
-        assert_eq!(p, [c.rect.center()[0], c.rect.center()[1], c.z]);
+        let r = rect(c);
+        assert_eq!(p, [r.center()[0], r.center()[1], c.z]);
+        assert_eq!(c.area(), r.area());
     }
     smallest_at_edge
 }
@@ -202,7 +212,7 @@ fn union_of_overlapping_rects_and_its_mesh() {
             assert!(
                 m.cells
                     .iter()
-                    .all(|c| close(c.rect.width(), 0.25e-3, 1e-9) && close(c.rect.height(), 0.25e-3, 1e-9))
+                    .all(|c| close(rect(c).width(), 0.25e-3, 1e-9) && close(rect(c).height(), 0.25e-3, 1e-9))
             );
             assert_eq!(m.cells.len(), 18 * 16);
         }
@@ -217,7 +227,7 @@ fn uniform_mesh_without_edge_refinement() {
     // ceil(2 / 0.3) = 7 columns of 2/7, ceil(0.7 / 0.3) = 3 rows of 0.7/3.
     assert_eq!(m.cells.len(), 21);
     for c in &m.cells {
-        assert!(close(c.rect.width(), 2e-3 / 7.0, 1e-12) && close(c.rect.height(), 0.7e-3 / 3.0, 1e-12));
+        assert!(close(rect(c).width(), 2e-3 / 7.0, 1e-12) && close(rect(c).height(), 0.7e-3 / 3.0, 1e-12));
     }
     // With refinement, the same rectangle gets smaller cells at its edges.
     let l = one_net("mm", "{ rect = { on = \"core\", min = [0, 0], max = [2, 0.7] } }", 0.3, true);
@@ -289,6 +299,6 @@ fn rounding_twins_are_snapped_not_meshed_as_slivers() {
     assert_eq!(region.rects.len(), 1, "{:?}", region.rects);
     let m = mesh(&l).unwrap();
     check_mesh(&l, &m);
-    let thinnest = m.cells.iter().map(|c| c.rect.width()).fold(f64::INFINITY, f64::min);
+    let thinnest = m.cells.iter().map(|c| rect(c).width()).fold(f64::INFINITY, f64::min);
     assert!(thinnest > 1e-3 * 0.05e-3, "sliver cell of width {thinnest}");
 }
