@@ -114,6 +114,15 @@ fn face(
              grounds are part of the stack-up",
         ));
     }
+    if stackup.ground_above.is_some_and(|zg| layer.z_top >= zg) {
+        return Err(ctx.invalid(
+            format!("{at}.on"),
+            fmt_str(on),
+            "the top face of this layer is the top ground plane: the conductor would be shorted to it",
+            "put the conductor on a lower dielectric layer (stripline: split the dielectric into two \
+             layers and use the lower one)",
+        ));
+    }
     Ok(Face { name: layer.name.clone(), z: layer.z_top })
 }
 

@@ -295,3 +295,31 @@ fn unreadable_file_is_named() {
     assert!(matches!(e, LayoutError::Read { .. }));
     assert!(e.to_string().starts_with("no/such/dir/layout.toml: cannot read"), "{e}");
 }
+
+/// A conductor on the top face of the last dielectric under a top ground would touch that
+/// ground: refused, naming the field and the layer.
+#[test]
+fn conductor_on_the_top_ground_face_is_refused() {
+    let text = r#"
+name = "strip"
+units = "mm"
+[stackup]
+layers = [
+  { name = "g0", kind = "ground" },
+  { name = "lo", kind = "dielectric", thickness = 1.0, eps_r = 2.2 },
+  { name = "hi", kind = "dielectric", thickness = 1.0, eps_r = 2.2 },
+  { name = "g1", kind = "ground" },
+]
+[[net]]
+name = "s"
+shapes = [ { rect = { on = "hi", min = [0, 0], max = [1, 1] } } ]
+[mesh]
+max_cell = 0.1
+"#;
+    let err = rafter_layout::parse_str(text, "strip.toml").unwrap_err().to_string();
+    assert!(
+        err.contains("strip.toml") && err.contains("net[0].shapes[0].rect.on") && err.contains("\"hi\""),
+        "{err}"
+    );
+    assert!(err.contains("top ground"), "{err}");
+}
