@@ -124,7 +124,7 @@ impl<T: Scalar> HMatrix<T> {
         reference::check_fits::<T>(
             "the H-matrix",
             estimate_bytes::<T>(&row_tree, &col_tree, &block_tree, options.tolerance),
-            "raise the tolerance, lower η, or reduce the number of unknowns",
+            "raise the tolerance, lower η, or use fewer unknowns (for a layout: a larger mesh.max_cell)",
         )?;
 
         let leaves: Vec<_> = block_tree.leaves().iter().map(|&l| &block_tree.blocks()[l]).collect();
