@@ -391,6 +391,9 @@ impl<T: Scalar> rafter_krylov::LinearOperator<T> for HMatrix<T> {
         // The solver checks lengths against `dim()` before it applies the operator.
         self.matvec(x, y).expect("vector lengths checked by the solver");
     }
+    fn apply_multi(&self, x: &[T], y: &mut [T], nrhs: usize) {
+        self.matvec_multi(x, y, nrhs).expect("vector lengths checked by the solver");
+    }
 }
 
 impl<T: Scalar> HMatrix<T> {

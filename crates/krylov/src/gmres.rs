@@ -96,126 +96,277 @@ pub fn gmres_monitored<T: Scalar, A: LinearOperator<T> + ?Sized, M: Precondition
     opts: &GmresOptions,
     monitor: &mut dyn FnMut(usize, f64),
 ) -> Result<GmresReport, KrylovError> {
-    opts.validate()?;
-    let n = a.dim();
-    for (what, got) in
-        [("right-hand side b", b.len()), ("solution vector x", x.len()), ("preconditioner", m_inv.dim())]
-    {
-        if got != n {
-            return Err(KrylovError::DimensionMismatch { what, expected: n, got });
-        }
+    if x.len() != a.dim() {
+        return Err(KrylovError::DimensionMismatch {
+            what: "solution vector x",
+            expected: a.dim(),
+            got: x.len(),
+        });
     }
-    let bnorm = norm2(b);
-    if !bnorm.is_finite() {
-        return Err(KrylovError::NonFinite { iteration: 0 });
-    }
-    if bnorm == 0.0 {
-        x.fill(T::zero());
-        return Ok(GmresReport { iterations: 0, cycles: 0, residual: 0.0, history: vec![0.0] });
-    }
-    let m = opts.restart.min(n.max(1));
-    let mut r = vec![T::zero(); n];
-    let mut w = vec![T::zero(); n];
-    let mut z = vec![T::zero(); n];
-    let mut basis: Vec<Vec<T>> = Vec::with_capacity(m + 1);
-    // Hessenberg columns h[j] of length j + 2, rotations (c, s), and the rotated rhs g.
-    let mut h: Vec<Vec<T>> = Vec::with_capacity(m);
-    let mut rot: Vec<(f64, T)> = Vec::with_capacity(m);
-    let mut g: Vec<T> = Vec::with_capacity(m + 1);
+    let mut out = run(a, m_inv, &[b], vec![x.to_vec()], opts, &mut |_, it, r| monitor(it, r))?;
+    let (sol, rep) = out.pop().expect("one system in, one out");
+    x.copy_from_slice(&sol);
+    Ok(rep)
+}
 
-    let residual = |x: &[T], r: &mut [T], w: &mut [T]| {
-        a.apply(x, w);
-        for ((ri, &bi), &wi) in r.iter_mut().zip(b).zip(w.iter()) {
-            *ri = bi - wi;
+/// Solves `A x_r = b_r` for several right-hand sides with the same operator and
+/// preconditioner (nothing is rebuilt between them), from zero initial guesses.
+///
+/// The systems run GMRES(m) independently — each has its own Krylov space, residual and stop —
+/// but in lockstep: every round, the operator is applied to one vector of every system still
+/// running through [`LinearOperator::apply_multi`], so an operator that streams its data
+/// (an H-matrix) reads it once per round for all systems. `monitor(system, iteration,
+/// residual)` follows every iteration. Returns the solutions and reports in order, or the
+/// first error.
+pub fn solve_many<T: Scalar, A: LinearOperator<T> + ?Sized, M: Preconditioner<T> + ?Sized>(
+    a: &A,
+    m_inv: &M,
+    rhs: &[Vec<T>],
+    opts: &GmresOptions,
+    monitor: &mut dyn FnMut(usize, usize, f64),
+) -> Result<Vec<(Vec<T>, GmresReport)>, KrylovError> {
+    let bs: Vec<&[T]> = rhs.iter().map(Vec::as_slice).collect();
+    let x0 = vec![vec![T::zero(); a.dim()]; rhs.len()];
+    run(a, m_inv, &bs, x0, opts, monitor)
+}
+
+/// What a system needs from the operator next.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+enum Phase {
+    /// `A x` for the true residual (start of a cycle).
+    Residual,
+    /// `A M⁻¹ v_j` for the next Arnoldi step.
+    Arnoldi,
+    /// Finished.
+    Done,
+}
+
+/// The state of one GMRES(m) system.
+struct System<'a, T> {
+    b: &'a [T],
+    bnorm: f64,
+    x: Vec<T>,
+    phase: Phase,
+    basis: Vec<Vec<T>>,
+    /// Hessenberg columns `h[j]` (length `j + 2`), rotated into triangular form.
+    h: Vec<Vec<T>>,
+    rot: Vec<(f64, T)>,
+    g: Vec<T>,
+    /// `M⁻¹ v_j` of the pending Arnoldi step.
+    z: Vec<T>,
+    iterations: usize,
+    cycles: usize,
+    history: Vec<f64>,
+}
+
+impl<T: Scalar> System<'_, T> {
+    fn report(&mut self, residual: f64) -> GmresReport {
+        GmresReport {
+            iterations: self.iterations,
+            cycles: self.cycles,
+            residual,
+            history: std::mem::take(&mut self.history),
         }
-        norm2(r)
-    };
-    let mut beta = residual(x, &mut r, &mut w);
-    let mut history = vec![beta / bnorm];
-    let (mut iterations, mut cycles) = (0usize, 0usize);
-    loop {
-        let rel = beta / bnorm;
+    }
+
+    /// Consumes `ax = A x`: the true residual; stops, or starts a new cycle.
+    fn after_residual(&mut self, ax: &[T], opts: &GmresOptions) -> Result<Option<GmresReport>, KrylovError> {
+        let r: Vec<T> = self.b.iter().zip(ax).map(|(&bi, &ai)| bi - ai).collect();
+        let beta = norm2(&r);
+        let rel = beta / self.bnorm;
+        if self.cycles == 0 {
+            self.history.push(rel);
+        } else if let Some(last) = self.history.last_mut() {
+            *last = rel;
+        }
         if !rel.is_finite() {
-            return Err(KrylovError::NonFinite { iteration: iterations });
+            return Err(KrylovError::NonFinite { iteration: self.iterations });
         }
         if rel <= opts.tolerance {
-            return Ok(GmresReport { iterations, cycles, residual: rel, history });
+            self.phase = Phase::Done;
+            return Ok(Some(self.report(rel)));
         }
-        if iterations >= opts.max_iterations {
+        if self.iterations >= opts.max_iterations {
             return Err(KrylovError::NotConverged {
-                iterations,
+                iterations: self.iterations,
                 residual: rel,
                 tolerance: opts.tolerance,
-                history,
+                history: std::mem::take(&mut self.history),
             });
         }
-        cycles += 1;
-        basis.clear();
-        h.clear();
-        rot.clear();
-        g.clear();
-        basis.push(r.iter().map(|&v| v.scale(1.0 / beta)).collect());
-        g.push(T::from_f64(beta));
-        for j in 0..m {
-            m_inv.apply(&basis[j], &mut z);
-            a.apply(&z, &mut w);
-            let mut col = vec![T::zero(); j + 2];
-            // Modified Gram–Schmidt, then one more pass to keep the basis orthogonal.
-            for _pass in 0..2 {
-                for (i, v) in basis.iter().enumerate() {
-                    let hij = dot(v, &w);
-                    col[i] += hij;
-                    axpy(-hij, v, &mut w);
-                }
+        self.cycles += 1;
+        self.basis.clear();
+        self.h.clear();
+        self.rot.clear();
+        self.g.clear();
+        self.basis.push(r.iter().map(|&v| v.scale(1.0 / beta)).collect());
+        self.g.push(T::from_f64(beta));
+        self.phase = Phase::Arnoldi;
+        Ok(None)
+    }
+
+    /// Consumes `w = A M⁻¹ v_j`: one Arnoldi step; at the end of a cycle updates `x`.
+    fn after_arnoldi<M: Preconditioner<T> + ?Sized>(
+        &mut self,
+        mut w: Vec<T>,
+        m_inv: &M,
+        restart: usize,
+        opts: &GmresOptions,
+        monitor: &mut dyn FnMut(usize, f64),
+    ) -> Result<(), KrylovError> {
+        let j = self.h.len();
+        let mut col = vec![T::zero(); j + 2];
+        // Modified Gram–Schmidt, then one more pass to keep the basis orthogonal.
+        for _pass in 0..2 {
+            for (i, v) in self.basis.iter().enumerate() {
+                let hij = dot(v, &w);
+                col[i] += hij;
+                axpy(-hij, v, &mut w);
             }
-            let hnext = norm2(&w);
-            col[j + 1] = T::from_f64(hnext);
-            for (i, &(c, s)) in rot.iter().enumerate() {
-                let (p, q) = (col[i], col[i + 1]);
-                col[i] = p.scale(c) + s * q;
-                col[i + 1] = -(s.conj() * p) + q.scale(c);
-            }
-            let (c, s, rho) = givens(col[j], col[j + 1]);
-            col[j] = rho;
-            col[j + 1] = T::zero();
-            let gj = g[j];
-            g[j] = gj.scale(c);
-            g.push(-(s.conj() * gj));
-            rot.push((c, s));
-            h.push(col);
-            iterations += 1;
-            let est = g[j + 1].abs() / bnorm;
-            history.push(est);
-            monitor(iterations, est);
-            if !est.is_finite() {
-                return Err(KrylovError::NonFinite { iteration: iterations });
-            }
-            if est <= opts.tolerance || hnext == 0.0 || iterations >= opts.max_iterations {
-                break;
-            }
-            basis.push(w.iter().map(|&v| v.scale(1.0 / hnext)).collect());
+        }
+        let hnext = norm2(&w);
+        col[j + 1] = T::from_f64(hnext);
+        for (i, &(c, s)) in self.rot.iter().enumerate() {
+            let (p, q) = (col[i], col[i + 1]);
+            col[i] = p.scale(c) + s * q;
+            col[i + 1] = -(s.conj() * p) + q.scale(c);
+        }
+        let (c, s, rho) = givens(col[j], col[j + 1]);
+        col[j] = rho;
+        col[j + 1] = T::zero();
+        let gj = self.g[j];
+        self.g[j] = gj.scale(c);
+        self.g.push(-(s.conj() * gj));
+        self.rot.push((c, s));
+        self.h.push(col);
+        self.iterations += 1;
+        let est = self.g[j + 1].abs() / self.bnorm;
+        self.history.push(est);
+        monitor(self.iterations, est);
+        if !est.is_finite() {
+            return Err(KrylovError::NonFinite { iteration: self.iterations });
+        }
+        let end = est <= opts.tolerance
+            || hnext == 0.0
+            || self.iterations >= opts.max_iterations
+            || self.h.len() >= restart;
+        if !end {
+            self.basis.push(w.iter().map(|&v| v.scale(1.0 / hnext)).collect());
+            return Ok(());
         }
         // Solve the triangular system R y = g and update x ← x + M⁻¹ (V y).
-        let k = h.len();
+        let k = self.h.len();
         let mut y = vec![T::zero(); k];
         for i in (0..k).rev() {
-            let mut s = g[i];
+            let mut s = self.g[i];
             for (l, yl) in y.iter().enumerate().skip(i + 1) {
-                s -= h[l][i] * *yl;
+                s -= self.h[l][i] * *yl;
             }
-            y[i] = s / h[i][i];
+            y[i] = s / self.h[i][i];
         }
-        let mut u = vec![T::zero(); n];
-        for (v, &yi) in basis.iter().zip(&y) {
+        let mut u = vec![T::zero(); self.x.len()];
+        for (v, &yi) in self.basis.iter().zip(&y) {
             axpy(yi, v, &mut u);
         }
-        m_inv.apply(&u, &mut z);
-        axpy(T::one(), &z, x);
-        beta = residual(x, &mut r, &mut w);
-        if let Some(last) = history.last_mut() {
-            *last = beta / bnorm;
+        m_inv.apply(&u, &mut self.z);
+        axpy(T::one(), &self.z, &mut self.x);
+        self.phase = Phase::Residual;
+        Ok(())
+    }
+}
+
+/// The lockstep driver behind [`gmres`] and [`solve_many`].
+fn run<T: Scalar, A: LinearOperator<T> + ?Sized, M: Preconditioner<T> + ?Sized>(
+    a: &A,
+    m_inv: &M,
+    rhs: &[&[T]],
+    x0: Vec<Vec<T>>,
+    opts: &GmresOptions,
+    monitor: &mut dyn FnMut(usize, usize, f64),
+) -> Result<Vec<(Vec<T>, GmresReport)>, KrylovError> {
+    opts.validate()?;
+    let n = a.dim();
+    if m_inv.dim() != n {
+        return Err(KrylovError::DimensionMismatch { what: "preconditioner", expected: n, got: m_inv.dim() });
+    }
+    let restart = opts.restart.min(n.max(1));
+    let mut systems = Vec::with_capacity(rhs.len());
+    let mut reports: Vec<Option<GmresReport>> = vec![None; rhs.len()];
+    for (k, (&b, x)) in rhs.iter().zip(x0).enumerate() {
+        if b.len() != n {
+            return Err(KrylovError::DimensionMismatch {
+                what: "right-hand side b",
+                expected: n,
+                got: b.len(),
+            });
+        }
+        let bnorm = norm2(b);
+        if !bnorm.is_finite() {
+            return Err(KrylovError::NonFinite { iteration: 0 });
+        }
+        let mut s = System {
+            b,
+            bnorm,
+            x,
+            phase: Phase::Residual,
+            basis: Vec::with_capacity(restart + 1),
+            h: Vec::with_capacity(restart),
+            rot: Vec::with_capacity(restart),
+            g: Vec::with_capacity(restart + 1),
+            z: vec![T::zero(); n],
+            iterations: 0,
+            cycles: 0,
+            history: Vec::new(),
+        };
+        if bnorm == 0.0 {
+            s.x.fill(T::zero());
+            s.phase = Phase::Done;
+            s.history.push(0.0);
+            reports[k] = Some(s.report(0.0));
+        } else if s.x.iter().all(|&v| v == T::zero()) {
+            // A x = 0 for the zero guess: no operator application needed.
+            reports[k] = s.after_residual(&vec![T::zero(); n], opts)?;
+        }
+        systems.push(s);
+    }
+    loop {
+        let active: Vec<usize> = (0..systems.len()).filter(|&k| systems[k].phase != Phase::Done).collect();
+        if active.is_empty() {
+            break;
+        }
+        // One operator application for every running system.
+        let mut xs = vec![T::zero(); n * active.len()];
+        for (c, &k) in active.iter().enumerate() {
+            let s = &mut systems[k];
+            let col = &mut xs[c * n..(c + 1) * n];
+            match s.phase {
+                Phase::Residual => col.copy_from_slice(&s.x),
+                Phase::Arnoldi => {
+                    let v = s.basis.last().expect("a cycle starts with one basis vector");
+                    m_inv.apply(v, col);
+                }
+                Phase::Done => unreachable!("only running systems are active"),
+            }
+        }
+        let mut ys = vec![T::zero(); n * active.len()];
+        a.apply_multi(&xs, &mut ys, active.len());
+        for (c, &k) in active.iter().enumerate() {
+            let y = &ys[c * n..(c + 1) * n];
+            let s = &mut systems[k];
+            match s.phase {
+                Phase::Residual => reports[k] = s.after_residual(y, opts)?,
+                Phase::Arnoldi => {
+                    s.after_arnoldi(y.to_vec(), m_inv, restart, opts, &mut |it, r| monitor(k, it, r))?
+                }
+                Phase::Done => {}
+            }
         }
     }
+    Ok(systems
+        .into_iter()
+        .zip(reports)
+        .map(|(s, r)| (s.x, r.expect("every finished system has a report")))
+        .collect())
 }
 
 /// Complex Givens rotation `(c, s)` with real `c` such that
@@ -231,23 +382,6 @@ fn givens<T: Scalar>(a: T, b: T) -> (f64, T, T) {
     let rho = na.hypot(nb);
     let phase = a.scale(1.0 / na);
     (na / rho, phase * b.conj().scale(1.0 / rho), phase.scale(rho))
-}
-
-/// Solves `A x_r = b_r` for several right-hand sides with the same operator and
-/// preconditioner (nothing is rebuilt between them); returns the solutions and reports in
-/// order, or the first error.
-pub fn solve_many<T: Scalar, A: LinearOperator<T> + ?Sized, M: Preconditioner<T> + ?Sized>(
-    a: &A,
-    m_inv: &M,
-    rhs: &[Vec<T>],
-    opts: &GmresOptions,
-) -> Result<Vec<(Vec<T>, GmresReport)>, KrylovError> {
-    rhs.iter()
-        .map(|b| {
-            let mut x = vec![T::zero(); a.dim()];
-            gmres(a, m_inv, b, &mut x, opts).map(|rep| (x, rep))
-        })
-        .collect()
 }
 
 #[cfg(test)]
@@ -312,5 +446,51 @@ mod tests {
             gmres(&Dense(a), &Identity(n), &b, &mut x, &bad),
             Err(KrylovError::BadOption { .. })
         ));
+    }
+}
+
+#[cfg(test)]
+mod lockstep_tests {
+    use super::*;
+    use crate::Identity;
+    use rafter_linalg::DenseMatrix;
+
+    struct Dense(DenseMatrix<f64>);
+    impl LinearOperator<f64> for Dense {
+        fn dim(&self) -> usize {
+            self.0.nrows()
+        }
+        fn apply(&self, x: &[f64], y: &mut [f64]) {
+            y.fill(0.0);
+            self.0.gemv_add(x, y);
+        }
+    }
+
+    /// Solving several right-hand sides in lockstep gives, system by system, exactly what
+    /// separate solves give (same iterates, same iteration counts), including a zero
+    /// right-hand side and systems that finish at different rounds.
+    #[test]
+    fn lockstep_equals_separate_solves() {
+        let n = 40;
+        let a = DenseMatrix::from_fn(n, n, |i, j| {
+            if i == j { 2.0 + i as f64 / 10.0 } else { 1.0 / (1.0 + (i + 2 * j) as f64) }
+        });
+        let rhs: Vec<Vec<f64>> = vec![
+            (0..n).map(|i| 1.0 + i as f64).collect(),
+            vec![0.0; n],
+            (0..n).map(|i| if i == 3 { 1.0 } else { 0.0 }).collect(),
+            (0..n).map(|i| (i as f64).sin()).collect(),
+        ];
+        let opts = GmresOptions { restart: 6, tolerance: 1e-10, max_iterations: 500 };
+        let op = Dense(a);
+        let together = solve_many(&op, &Identity(n), &rhs, &opts, &mut |_, _, _| {}).unwrap();
+        for (b, (x, rep)) in rhs.iter().zip(&together) {
+            let mut xs = vec![0.0; n];
+            let alone = gmres(&op, &Identity(n), b, &mut xs, &opts).unwrap();
+            assert_eq!(rep.iterations, alone.iterations);
+            assert_eq!(rep.history, alone.history);
+            assert!(x.iter().zip(&xs).all(|(p, q)| p == q));
+        }
+        assert_eq!(together[1].1.iterations, 0);
     }
 }

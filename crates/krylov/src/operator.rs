@@ -8,6 +8,15 @@ pub trait LinearOperator<T: Scalar>: Sync {
     fn dim(&self) -> usize;
     /// `y = A x` (overwrites `y`); both of length `dim()`.
     fn apply(&self, x: &[T], y: &mut [T]);
+    /// `Y = A X` for `nrhs` column-major vectors of length `dim()` (overwrites `Y`). The
+    /// default applies [`LinearOperator::apply`] column by column; operators that can stream
+    /// their data once for all vectors override it.
+    fn apply_multi(&self, x: &[T], y: &mut [T], nrhs: usize) {
+        let n = self.dim();
+        for r in 0..nrhs {
+            self.apply(&x[r * n..(r + 1) * n], &mut y[r * n..(r + 1) * n]);
+        }
+    }
 }
 
 /// An approximate inverse `z = M⁻¹ r` used for right preconditioning (`A M⁻¹ u = b`, `x = M⁻¹ u`).

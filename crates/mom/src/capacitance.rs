@@ -3,7 +3,7 @@
 use crate::{MomError, PanelCollocation};
 use rafter_green::{Panel, StaticGreen};
 use rafter_hmatrix::{HMatrix, HOptions, HSummary, reference};
-use rafter_krylov::{GmresOptions, GmresReport, gmres_monitored};
+use rafter_krylov::{GmresOptions, GmresReport, solve_many};
 use rafter_linalg::DenseLu;
 use serde::Serialize;
 use std::time::Instant;
@@ -115,14 +115,10 @@ pub fn capacitance(
         let pc = h.block_jacobi()?;
         timing.preconditioner_s = t.elapsed().as_secs_f64();
         let t = Instant::now();
-        let mut out = Vec::with_capacity(nets);
-        for (j, b) in rhs.iter().enumerate() {
-            let mut q = vec![0.0; n];
-            let rep =
-                gmres_monitored(&h, &pc, b, &mut q, &opts.gmres, &mut |it, r| gmres_progress(j, it, r))?;
-            reports.push(rep);
-            out.push(q);
-        }
+        // All nets in lockstep: one multi-vector H-matrix product per round serves every net.
+        let solved = solve_many(&h, &pc, &rhs, &opts.gmres, gmres_progress)?;
+        let (out, reps): (Vec<Vec<f64>>, Vec<GmresReport>) = solved.into_iter().unzip();
+        reports = reps;
         timing.solve_s = t.elapsed().as_secs_f64();
         out
     };
