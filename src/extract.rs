@@ -108,9 +108,19 @@ pub struct Extraction {
 
 /// The Green's function of a homogeneous stack-up; refuses layered ones (not supported yet).
 pub fn green_for(layout: &Layout) -> anyhow::Result<Box<dyn StaticGreen>> {
+    green_with(layout, None)
+}
+
+/// The Green's function of the stack-up with every dielectric replaced by air (`εr = 1`):
+/// the medium of `C_air`, from which the inductance of quasi-TEM lines follows.
+pub fn green_for_air(layout: &Layout) -> anyhow::Result<Box<dyn StaticGreen>> {
+    green_with(layout, Some(1.0))
+}
+
+fn green_with(layout: &Layout, eps_override: Option<f64>) -> anyhow::Result<Box<dyn StaticGreen>> {
     let s = &layout.stackup;
     let accuracy = layout.solve.tolerance / 10.0;
-    let Some(eps_r) = s.uniform_eps_r() else {
+    let Some(eps_r) = eps_override.or_else(|| s.uniform_eps_r()) else {
         bail!(
             "{}: stackup.layers: the dielectrics have different eps_r; stack-ups with several \
              permittivities are not supported yet (hint: for now give every dielectric the same eps_r)",

@@ -12,12 +12,13 @@
 //! - [`green`]: quasi-static Green's functions and panel integrals;
 //! - [`mom`]: collocation operator and capacitance;
 //! - [`bench`]: the engine benchmark behind `rafter bench-engine`;
-//! - [`extract`]: the capacitance job behind `rafter extract`; [`output`]: all-or-nothing files.
+//! - [`extract`]: the capacitance job behind `rafter extract`; [`lines`]: `rafter lines`; [`output`]: all-or-nothing files.
 
 #![warn(missing_docs)]
 
 pub mod bench;
 pub mod extract;
+pub mod lines;
 pub mod output;
 
 pub use rafter_cluster as cluster;

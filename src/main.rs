@@ -20,6 +20,15 @@ struct Cli {
 
 #[derive(Subcommand)]
 enum Command {
+    /// Per-unit-length parameters (C′, L′, Z0, εeff, even/odd modes) of the uniform parallel
+    /// lines of a layout; writes lines.json.
+    Lines {
+        /// The layout file: each net one straight line, all over the same stretch.
+        layout: PathBuf,
+        /// Output folder (created if missing; written all or nothing).
+        #[arg(short, long)]
+        out: PathBuf,
+    },
     /// Extract the capacitance matrix of a layout (TOML); writes capacitance.json, .csv and .cir.
     Extract {
         /// The layout file.
@@ -77,6 +86,24 @@ fn main() -> ExitCode {
 fn run(cli: Cli) -> anyhow::Result<()> {
     match cli.command {
         Command::Extract { layout, out, dense } => run_extract(&layout, &out, dense, cli.quiet),
+        Command::Lines { layout, out } => {
+            let layout = rafter::layout::load(&layout)?;
+            if !cli.quiet {
+                eprintln!(
+                    "extracting {} lines at two lengths, with dielectrics and in air …",
+                    layout.nets.len()
+                );
+            }
+            let p = rafter::lines::line_parameters(&layout)?;
+            let mut st = rafter::output::Staging::new(&out)?;
+            st.add("lines.json", serde_json::to_string_pretty(&p)?.as_bytes())?;
+            st.commit()?;
+            if !cli.quiet {
+                eprint!("{}", rafter::lines::table_text(&p));
+                eprintln!("wrote {}/lines.json", out.display());
+            }
+            Ok(())
+        }
         Command::BenchEngine {
             kernel,
             n,

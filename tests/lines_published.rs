@@ -1,0 +1,67 @@
+//! `rafter lines` against published line parameters (sources named at each check).
+
+use rafter::layout::parse_str;
+use rafter::lines::line_parameters;
+
+fn layout(stack: &str, on: &str, strips: &[(f64, f64)], len: f64, max_cell: f64) -> rafter::layout::Layout {
+    let mut nets = String::new();
+    for (k, (y0, y1)) in strips.iter().enumerate() {
+        nets += &format!(
+            "[[net]]\nname = \"l{k}\"\nshapes = [ {{ rect = {{ on = \"{on}\", min = [0, {y0}], max = [{len}, {y1}] }} }} ]\n"
+        );
+    }
+    let text = format!(
+        "name = \"lines\"\nunits = \"mm\"\n[stackup]\nlayers = [{stack}]\n{nets}[mesh]\nmax_cell = {max_cell}\n[solve]\ntolerance = 1e-5\n"
+    );
+    parse_str(&text, "lines.toml").unwrap()
+}
+
+const AIR_MICROSTRIP: &str = r#"{ name = "gnd", kind = "ground" }, { name = "sub", kind = "dielectric", thickness = 1.0, eps_r = 1.0 }"#;
+
+/// Microstrip in air, w/h = 1 (h = 1 mm): Z0 within 1 % of the exact 126.424 Ω (shared
+/// references §2, matching Hammerstad & Jensen, IEEE MTT-S Digest 1980, to 0.01 %); εeff = 1.
+#[test]
+fn air_microstrip_impedance() {
+    let p = line_parameters(&layout(AIR_MICROSTRIP, "sub", &[(-0.5, 0.5)], 8.0, 1.0 / 6.0)).unwrap();
+    eprintln!("Z0 = {:.4} Ω, εeff = {:.6}", p.z0[0], p.eps_eff[0]);
+    assert!((p.z0[0] - 126.424).abs() <= 0.01 * 126.424);
+    assert!((p.eps_eff[0] - 1.0).abs() < 1e-9);
+    // L′ C′_air = 1/c² for a single line (quasi-TEM relation, Pozar ch. 2).
+    let lc = p.inductance_per_m[0][0] * p.capacitance_air_per_m[0][0] * rafter::lines::C0.powi(2);
+    assert!((lc - 1.0).abs() < 1e-12);
+}
+
+/// Stripline in a homogeneous dielectric (εr = 2.2, b = 2 mm, w/b = 1): Z0 within 1 % of Cohn
+/// (IRE Trans. MTT-2, 1954; 65.3536 Ω in air from the shared references, divided by √εr), and
+/// εeff = εr, as it must be in a homogeneous medium.
+#[test]
+fn homogeneous_stripline_impedance() {
+    let stack = r#"{ name = "g0", kind = "ground" },
+        { name = "lo", kind = "dielectric", thickness = 1.0, eps_r = 2.2 },
+        { name = "hi", kind = "dielectric", thickness = 1.0, eps_r = 2.2 },
+        { name = "g1", kind = "ground" }"#;
+    let p = line_parameters(&layout(stack, "lo", &[(-1.0, 1.0)], 4.0, 2.0 / 6.0)).unwrap();
+    let want = 65.3536 / 2.2f64.sqrt();
+    eprintln!("Z0 = {:.4} Ω (Cohn {want:.4}), εeff = {:.6}", p.z0[0], p.eps_eff[0]);
+    assert!((p.z0[0] - want).abs() <= 0.01 * want);
+    assert!((p.eps_eff[0] - 2.2).abs() < 1e-6);
+}
+
+/// A symmetric coupled pair in air over ground: the even mode has the higher impedance and the
+/// odd the lower, bracketing the single-line value; εeff = 1 for both modes (air); moving the
+/// lines far apart makes the modes coincide (physics of coupled lines, e.g. Pozar ch. 7).
+#[test]
+fn coupled_pair_modes() {
+    let close =
+        line_parameters(&layout(AIR_MICROSTRIP, "sub", &[(-0.75, 0.25), (0.75, 1.75)], 6.0, 0.2)).unwrap();
+    let m = close.pair.clone().expect("symmetric pair");
+    eprintln!("close: Z0 {:.3}, even {:.3}, odd {:.3}", close.z0[0], m.z0_even, m.z0_odd);
+    assert!(m.z0_even > close.z0[0] && close.z0[0] > m.z0_odd);
+    assert!((m.eps_eff_even - 1.0).abs() < 1e-9 && (m.eps_eff_odd - 1.0).abs() < 1e-9);
+    let far =
+        line_parameters(&layout(AIR_MICROSTRIP, "sub", &[(-10.5, -9.5), (9.5, 10.5)], 6.0, 0.2)).unwrap();
+    let f = far.pair.expect("symmetric pair");
+    eprintln!("far: even {:.3}, odd {:.3}", f.z0_even, f.z0_odd);
+    assert!((f.z0_even - f.z0_odd).abs() < 0.01 * f.z0_odd);
+    assert!((f.z0_even - f.z0_odd) < (m.z0_even - m.z0_odd));
+}
