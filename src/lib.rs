@@ -11,12 +11,13 @@
 //! - [`layout`]: layout files, stack-ups and meshes;
 //! - [`green`]: quasi-static Green's functions and panel integrals;
 //! - [`mom`]: collocation operator and capacitance;
-//! - [`bench`]: the engine benchmark behind `rafter bench-engine`;
+//! - [`bench`]: the engine benchmark behind `rafter bench-engine`; [`compare`]: `rafter bench-extract`;
 //! - [`extract`]: the capacitance job behind `rafter extract`; [`lines`]: `rafter lines`; [`output`]: all-or-nothing files.
 
 #![warn(missing_docs)]
 
 pub mod bench;
+pub mod compare;
 pub mod extract;
 pub mod lines;
 pub mod output;

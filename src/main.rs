@@ -20,6 +20,15 @@ struct Cli {
 
 #[derive(Subcommand)]
 enum Command {
+    /// Benchmark: compressed extraction against dense fill + LU on the same mesh, at chosen
+    /// sizes (the mesh is rescaled to each); prints one JSON object.
+    BenchExtract {
+        /// The layout file.
+        layout: PathBuf,
+        /// Target numbers of unknowns, comma-separated.
+        #[arg(long, value_delimiter = ',', default_values_t = [10_000usize, 20_000])]
+        unknowns: Vec<usize>,
+    },
     /// Per-unit-length parameters (C′, L′, Z0, εeff, even/odd modes) of the uniform parallel
     /// lines of a layout; writes lines.json.
     Lines {
@@ -86,6 +95,22 @@ fn main() -> ExitCode {
 fn run(cli: Cli) -> anyhow::Result<()> {
     match cli.command {
         Command::Extract { layout, out, dense } => run_extract(&layout, &out, dense, cli.quiet),
+        Command::BenchExtract { layout, unknowns } => {
+            let layout = rafter::layout::load(&layout)?;
+            if !cli.quiet {
+                eprintln!("comparing compressed and dense extraction at {unknowns:?} unknowns …");
+            }
+            let sizes = rafter::compare::compare(&layout, &unknowns)?;
+            let json = serde_json::json!({
+                "layout": layout.name,
+                "tolerance": layout.solve.tolerance,
+                "threads": rayon::current_num_threads(),
+                "sizes": sizes,
+                "peak_memory_bytes": rafter::output::peak_memory_bytes(),
+            });
+            println!("{}", serde_json::to_string_pretty(&json)?);
+            Ok(())
+        }
         Command::Lines { layout, out } => {
             let layout = rafter::layout::load(&layout)?;
             if !cli.quiet {
