@@ -17,10 +17,12 @@
 #![warn(missing_docs)]
 
 pub mod homogeneous;
+pub mod layered;
 pub mod panel;
 pub mod quadrature;
 
 pub use homogeneous::{FreeSpace, GroundBelow, TwoGrounds};
+pub use layered::{LayerSpec, LayeredGreen};
 pub use panel::Panel;
 
 /// Vacuum permittivity ε0 in F/m (CODATA 2022).
