@@ -2,9 +2,9 @@
 //! and the files that report it.
 
 use crate::output::{Staging, peak_memory_bytes};
-use anyhow::{Context, bail};
-use rafter_green::{FreeSpace, GroundBelow, Panel, StaticGreen, TwoGrounds};
-use rafter_layout::{CellShape, Layout, Mesh};
+use anyhow::Context;
+use rafter_green::{FreeSpace, GroundBelow, LayerSpec, LayeredGreen, Panel, StaticGreen, TwoGrounds};
+use rafter_layout::{CellShape, LayerKind, Layout, Mesh};
 use rafter_mom::{CapacitanceOptions, CapacitanceResult, capacitance, spice_form};
 use serde::Serialize;
 use std::fmt::Write as _;
@@ -106,7 +106,9 @@ pub struct Extraction {
     pub peak_memory_bytes: Option<u64>,
 }
 
-/// The Green's function of a homogeneous stack-up; refuses layered ones (not supported yet).
+/// The Green's function of the layout's stack-up: closed-form images for homogeneous media
+/// (free space, a ground with air above, two grounds with one εr), the tabulated layered
+/// Green's function otherwise.
 pub fn green_for(layout: &Layout) -> anyhow::Result<Box<dyn StaticGreen>> {
     green_with(layout, None)
 }
@@ -120,36 +122,70 @@ pub fn green_for_air(layout: &Layout) -> anyhow::Result<Box<dyn StaticGreen>> {
 fn green_with(layout: &Layout, eps_override: Option<f64>) -> anyhow::Result<Box<dyn StaticGreen>> {
     let s = &layout.stackup;
     let accuracy = layout.solve.tolerance / 10.0;
-    let Some(eps_r) = eps_override.or_else(|| s.uniform_eps_r()) else {
-        bail!(
-            "{}: stackup.layers: the dielectrics have different eps_r; stack-ups with several \
-             permittivities are not supported yet (hint: for now give every dielectric the same eps_r)",
-            layout.file
-        );
-    };
-    let green: Box<dyn StaticGreen> = match (s.ground_below, s.ground_above) {
-        (Some(z0), Some(z1)) => Box::new(TwoGrounds::new(z0, z1 - z0, eps_r, accuracy)?),
-        (below, None) => {
-            if eps_r != 1.0 {
-                bail!(
-                    "{}: stackup.layers: dielectric eps_r = {eps_r} with air above; without a top \
-                     ground the medium is not homogeneous, which is not supported yet (hint: use \
-                     eps_r = 1, or close the stack with a ground layer on top)",
-                    layout.file
-                );
-            }
-            match below {
-                Some(z0) => Box::new(GroundBelow::new(z0, 1.0, accuracy)?),
-                None => Box::new(FreeSpace::new(1.0, accuracy)?),
-            }
+    let dielectrics: Vec<(&str, LayerSpec)> = s
+        .layers
+        .iter()
+        .filter_map(|l| match l.kind {
+            LayerKind::Dielectric { eps_r, .. } => Some((
+                l.name.as_str(),
+                LayerSpec { thickness: l.z_top - l.z_bottom, eps_r: eps_override.unwrap_or(eps_r) },
+            )),
+            LayerKind::Ground => None,
+        })
+        .collect();
+    let uniform = eps_override.or_else(|| s.uniform_eps_r());
+    let green: Box<dyn StaticGreen> = match (s.ground_below, s.ground_above, uniform) {
+        _ if dielectrics.is_empty() => Box::new(FreeSpace::new(1.0, accuracy)?),
+        (Some(z0), Some(z1), Some(eps_r)) => Box::new(TwoGrounds::new(z0, z1 - z0, eps_r, accuracy)?),
+        (Some(z0), None, Some(eps_r)) if eps_r == 1.0 => Box::new(GroundBelow::new(z0, 1.0, accuracy)?),
+        (None, None, Some(eps_r)) if eps_r == 1.0 => Box::new(FreeSpace::new(1.0, accuracy)?),
+        _ => {
+            // Layered: tables for the faces that carry conductors, out to the layout's extent.
+            let used: std::collections::BTreeSet<&str> =
+                layout.nets.iter().flat_map(|n| n.regions.iter().map(|r| r.face.as_str())).collect();
+            let faces: Vec<usize> = dielectrics
+                .iter()
+                .enumerate()
+                .filter(|(_, (name, _))| used.contains(name))
+                .map(|(i, _)| i)
+                .collect();
+            let specs: Vec<LayerSpec> = dielectrics.iter().map(|(_, spec)| *spec).collect();
+            let rho_max = 1.01 * extent(layout) + f64::MIN_POSITIVE;
+            Box::new(
+                LayeredGreen::new(
+                    &specs,
+                    s.ground_below.is_some(),
+                    s.ground_above.is_some(),
+                    &faces,
+                    rho_max,
+                    accuracy,
+                )
+                .map_err(|e| anyhow::anyhow!("{}: stackup.layers: {e}", layout.file))?,
+            )
         }
-        (None, Some(_)) => bail!(
-            "{}: stackup.layers: a ground only at the top is not supported (hint: list layers \
-             bottom to top, the ground first)",
-            layout.file
-        ),
     };
     Ok(green)
+}
+
+/// Diagonal (m) of the horizontal bounding box of every conductor.
+fn extent(layout: &Layout) -> f64 {
+    let (mut lo, mut hi) = ([f64::INFINITY; 2], [f64::NEG_INFINITY; 2]);
+    let mut add = |p: [f64; 2]| {
+        for a in 0..2 {
+            lo[a] = lo[a].min(p[a]);
+            hi[a] = hi[a].max(p[a]);
+        }
+    };
+    for region in layout.nets.iter().flat_map(|n| &n.regions) {
+        for r in &region.rects {
+            add([r.x0, r.y0]);
+            add([r.x1, r.y1]);
+        }
+        for p in region.outline.iter().flatten() {
+            add(*p);
+        }
+    }
+    ((hi[0] - lo[0]).powi(2) + (hi[1] - lo[1]).powi(2)).sqrt()
 }
 
 /// Panels and their nets from a mesh.

@@ -656,6 +656,24 @@ impl LayeredGreen {
         }
     }
 
+    /// The smooth remainder `2π ε0 G − (extracted terms of x)` at `ρ`, without forming the
+    /// (possibly infinite, at `ρ = 0` on one face) extracted terms when a table holds it.
+    fn remainder(&self, rho: f64, z: f64, zs: f64, x: &Extraction) -> f64 {
+        if let (Some(t), Some(s)) = (self.node_at(z), self.node_at(zs)) {
+            if let Some(p) = self.table(s, t) {
+                return if rho <= p.rho_max {
+                    p.interpolate(rho)
+                } else {
+                    direct_remainder(&self.stack, s, t, rho, p.rule.k.len())
+                };
+            }
+        }
+        // No table (off the faces): difference of the full kernel and the extracted terms, at a
+        // distance kept off the singular point (the remainder is smooth there).
+        let rho = rho.max(1e-9 * x.d_img);
+        self.scaled(rho, z, zs) - x.spatial(rho)
+    }
+
     /// `2π ε0 G` between nodes by direct integration (no table).
     fn direct(&self, rho: f64, t: usize, s: usize) -> f64 {
         self.stack.extraction(s, t).spatial(rho) + direct_remainder(&self.stack, s, t, rho, 0)
@@ -764,7 +782,7 @@ impl StaticGreen for LayeredGreen {
         let len = x.d_img;
         let remainder = smooth_integral(panel, obs, len, self.accuracy, 0, &|q| {
             let rho = (obs[0] - q[0]).hypot(obs[1] - q[1]);
-            self.scaled(rho, obs[2], zs) - x.spatial(rho)
+            self.remainder(rho, obs[2], zs, &x)
         });
         (singular + remainder) / (2.0 * PI * EPS0 * panel.area())
     }
@@ -1218,5 +1236,27 @@ mod tests {
             LayeredGreen::new(&ok, true, false, &[0], 1.0, 0.0),
             Err(GreenError::BadAccuracy(_))
         ));
+    }
+
+    /// The observer at the centre of its own panel, where a Gauss node of the remainder rule
+    /// can coincide with the observer: the value stays finite and matches the singular terms in
+    /// closed form plus a fine quadrature of the remainder (regression: the extracted terms were
+    /// once subtracted at ρ = 0).
+    #[test]
+    fn self_panel_with_a_node_at_the_observer() {
+        let g = LayeredGreen::new(&[layer(1e-3, 4.4)], true, false, &[0], 20e-3, 1e-6).unwrap();
+        for side in [0.23e-3, 0.6e-3, 1.7e-3] {
+            let p = Panel::Rect { x0: 0.0, x1: side, y0: 0.0, y1: side, z: 1e-3 };
+            let c = p.center();
+            let got = g.panel_potential(c, &p);
+            let x = g.stack.extraction(1, 1);
+            let singular = x.a * crate::panel::inverse_distance_exact(c, &p)
+                + x.c * crate::panel::inverse_distance_exact(c, &p.at(c[2] - x.d_img));
+            let rem = crate::quadrature::panel_rule_subdivided(&p, 8, 4, |q| {
+                g.remainder((c[0] - q[0]).hypot(c[1] - q[1]), c[2], 1e-3, &x)
+            });
+            let want = (singular + rem) / (2.0 * PI * EPS0 * p.area());
+            assert!(got.is_finite() && (got - want).abs() < 1e-6 * want, "side {side}: {got} vs {want}");
+        }
     }
 }
