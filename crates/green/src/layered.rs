@@ -659,14 +659,14 @@ impl LayeredGreen {
     /// The smooth remainder `2π ε0 G − (extracted terms of x)` at `ρ`, without forming the
     /// (possibly infinite, at `ρ = 0` on one face) extracted terms when a table holds it.
     fn remainder(&self, rho: f64, z: f64, zs: f64, x: &Extraction) -> f64 {
-        if let (Some(t), Some(s)) = (self.node_at(z), self.node_at(zs)) {
-            if let Some(p) = self.table(s, t) {
-                return if rho <= p.rho_max {
-                    p.interpolate(rho)
-                } else {
-                    direct_remainder(&self.stack, s, t, rho, p.rule.k.len())
-                };
-            }
+        if let (Some(t), Some(s)) = (self.node_at(z), self.node_at(zs))
+            && let Some(p) = self.table(s, t)
+        {
+            return if rho <= p.rho_max {
+                p.interpolate(rho)
+            } else {
+                direct_remainder(&self.stack, s, t, rho, p.rule.k.len())
+            };
         }
         // No table (off the faces): difference of the full kernel and the extracted terms, at a
         // distance kept off the singular point (the remainder is smooth there).
