@@ -137,8 +137,8 @@ fn green_with(layout: &Layout, eps_override: Option<f64>) -> anyhow::Result<Box<
     let green: Box<dyn StaticGreen> = match (s.ground_below, s.ground_above, uniform) {
         _ if dielectrics.is_empty() => Box::new(FreeSpace::new(1.0, accuracy)?),
         (Some(z0), Some(z1), Some(eps_r)) => Box::new(TwoGrounds::new(z0, z1 - z0, eps_r, accuracy)?),
-        (Some(z0), None, Some(eps_r)) if eps_r == 1.0 => Box::new(GroundBelow::new(z0, 1.0, accuracy)?),
-        (None, None, Some(eps_r)) if eps_r == 1.0 => Box::new(FreeSpace::new(1.0, accuracy)?),
+        (Some(z0), None, Some(1.0)) => Box::new(GroundBelow::new(z0, 1.0, accuracy)?),
+        (None, None, Some(1.0)) => Box::new(FreeSpace::new(1.0, accuracy)?),
         _ => {
             // Layered: tables for the faces that carry conductors, out to the layout's extent.
             let used: std::collections::BTreeSet<&str> =
