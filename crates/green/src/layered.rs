@@ -363,13 +363,43 @@ struct PairTable {
     rho_max: f64,
     /// The Hankel rule behind the table (valid up to `ρ_max`).
     rule: HankelRule,
+    /// `bucket[b]`: the last node at or below the start of bucket `b` of a uniform partition of
+    /// `[σ_0, σ_last]` — an O(1) start for the interval search.
+    bucket: Vec<u32>,
+    /// Buckets per unit σ.
+    bucket_scale: f64,
 }
 
 impl PairTable {
+    /// Uniform buckets over the nodes (four per node): see [`PairTable::bucket`].
+    fn buckets(sigma: &[f64]) -> (Vec<u32>, f64) {
+        let n = sigma.len();
+        let nb = (4 * n).max(1);
+        let span = (sigma[n - 1] - sigma[0]).max(f64::MIN_POSITIVE);
+        let scale = nb as f64 / span;
+        let mut bucket = Vec::with_capacity(nb);
+        let mut i = 0usize;
+        for b in 0..nb {
+            let start = sigma[0] + b as f64 / scale;
+            while i + 1 < n && sigma[i + 1] <= start {
+                i += 1;
+            }
+            bucket.push(i as u32);
+        }
+        (bucket, scale)
+    }
+
     fn interpolate(&self, rho: f64) -> f64 {
-        let s = (rho / self.len).asinh();
+        // asinh(x) = ln(x + √(x² + 1)) for x ≥ 0 (no cancellation there).
+        let r = rho / self.len;
+        let s = (r + (r * r + 1.0).sqrt()).ln();
         let n = self.sigma.len();
-        let i = self.sigma.partition_point(|&x| x <= s).clamp(1, n - 1) - 1;
+        let b = (((s - self.sigma[0]) * self.bucket_scale) as usize).min(self.bucket.len() - 1);
+        let mut i = self.bucket[b] as usize;
+        while i + 2 < n && self.sigma[i + 1] <= s {
+            i += 1;
+        }
+        let i = i.min(n - 2);
         let (s0, s1) = (self.sigma[i], self.sigma[i + 1]);
         let h = s1 - s0;
         let t = ((s - s0) / h).clamp(0.0, 1.0);
@@ -610,16 +640,20 @@ impl LayeredGreen {
         }
         let mut order: Vec<usize> = (0..sig.len()).collect();
         order.sort_by(|&x, &y| sig[x].total_cmp(&sig[y]));
+        let sigma: Vec<f64> = order.iter().map(|&i| sig[i]).collect();
+        let (bucket, bucket_scale) = PairTable::buckets(&sigma);
         Ok(PairTable {
             lo,
             hi,
             x,
             len,
-            sigma: order.iter().map(|&i| sig[i]).collect(),
+            sigma,
             val: order.iter().map(|&i| vals[i].0).collect(),
             slope: order.iter().map(|&i| vals[i].1).collect(),
             rho_max: self.rho_max,
             rule,
+            bucket,
+            bucket_scale,
         })
     }
 
@@ -763,9 +797,30 @@ impl StaticGreen for LayeredGreen {
     fn panel_potential(&self, obs: [f64; 3], panel: &Panel) -> f64 {
         let zs = panel.z();
         let dist = panel.distance(obs);
-        // Far: the whole kernel by a Gauss rule.
+        // Far: the whole kernel by a Gauss rule (table found once for the panel when both
+        // heights are tabulated faces, the common case).
         if let Some((nx, ny)) = rule_for(panel, dist, self.accuracy) {
-            return panel_rule(panel, nx, ny, |q| self.potential(obs, q)) / panel.area();
+            let pair = match (self.node_at(obs[2]), self.node_at(zs)) {
+                (Some(t), Some(s)) if !self.stack.on_ground(t) && !self.stack.on_ground(s) => {
+                    self.table(s, t)
+                }
+                _ => None,
+            };
+            let integral = match pair {
+                Some(p) => panel_rule(panel, nx, ny, |q| {
+                    let rho = (obs[0] - q[0]).hypot(obs[1] - q[1]);
+                    let rem = if rho <= p.rho_max {
+                        p.interpolate(rho)
+                    } else {
+                        direct_remainder(&self.stack, p.lo, p.hi, rho, p.rule.k.len())
+                    };
+                    p.x.spatial(rho) + rem
+                }),
+                None => panel_rule(panel, nx, ny, |q| {
+                    self.scaled((obs[0] - q[0]).hypot(obs[1] - q[1]), obs[2], zs)
+                }),
+            };
+            return integral / (2.0 * PI * EPS0 * panel.area());
         }
         let x = match (self.node_at(obs[2]), self.node_at(zs)) {
             (Some(t), Some(s)) if !self.stack.on_ground(t) && !self.stack.on_ground(s) => {
