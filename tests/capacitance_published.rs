@@ -161,3 +161,26 @@ fn disk_capacitance_is_8_eps0_a() {
     assert!(errs[1] <= 0.01, "{errs:?}");
     assert!(errs[1] < errs[0], "{errs:?}");
 }
+
+/// An embedded microstrip on a two-dielectric stack (0.2 mm εr 4.4 under the strip, 0.1 mm
+/// εr 3.0 over it, air above): the compressed solve agrees with the dense reference solve of
+/// the same discretisation to 10 × tolerance, and the capacitance lies strictly between the
+/// values with every dielectric at the lower and at the higher permittivity (monotonicity of
+/// capacitance in the permittivity: a physical bound, e.g. from Thomson's energy principle).
+#[test]
+fn embedded_microstrip_is_bounded_and_matches_dense() {
+    let stack = |lo: f64, hi: f64| {
+        format!(
+            r#"{{ name = "gnd", kind = "ground" }}, {{ name = "core", kind = "dielectric", thickness = 0.2, eps_r = {lo} }}, {{ name = "cover", kind = "dielectric", thickness = 0.1, eps_r = {hi} }}"#
+        )
+    };
+    let c_of = |lo: f64, hi: f64, dense: bool| {
+        solve(&strip_layout(&stack(lo, hi), "core", 0.3, 3.0, 0.05), dense)[0][0]
+    };
+    let c = c_of(4.4, 3.0, false);
+    let cd = c_of(4.4, 3.0, true);
+    let (low, high) = (c_of(3.0, 3.0, false), c_of(4.4, 4.4, false));
+    eprintln!("C = {c:.5e} F (dense {cd:.5e}); bounds {low:.5e} … {high:.5e}");
+    assert!((c - cd).abs() <= 10.0 * 1e-5 * cd);
+    assert!(low < c && c < high, "{low} < {c} < {high}");
+}
