@@ -208,8 +208,7 @@ fn run_with<T: Scalar, S: EntrySource<T>>(
         let (mut rel_diff_dense_lu, mut dense_lu_s) = (None, None);
         if let Some(a) = dense.take() {
             let t = Instant::now();
-            let lu = DenseLu::factor(&a)?;
-            drop(a);
+            let lu = DenseLu::factor_in_place(a)?;
             let mut xd = b.clone();
             lu.solve_in_place(&mut xd)?;
             dense_lu_s = Some(t.elapsed().as_secs_f64());

@@ -176,47 +176,62 @@ pub fn norm2<T: Scalar>(x: &[T]) -> f64 {
     x.iter().map(|v| v.abs2()).sum::<f64>().sqrt()
 }
 
-/// LU factorisation with partial pivoting, `P A = L U`, of a square matrix (faer).
+/// LU factorisation with partial pivoting, `P A = L U`, of a square matrix (faer), stored
+/// packed in one `n × n` buffer (no extra copies of the matrix).
 pub struct DenseLu<T: Scalar> {
-    n: usize,
-    lu: T::Lu,
+    lu: DenseMatrix<T>,
+    fwd: Vec<usize>,
+    bwd: Vec<usize>,
 }
 
 impl<T: Scalar> DenseLu<T> {
-    /// Factorises `a`. Fails when `a` is not square or has a zero or non-finite pivot.
+    /// Factorises a copy of `a`. Fails when `a` is not square or has a zero or non-finite pivot.
     pub fn factor(a: &DenseMatrix<T>) -> Result<Self, LinalgError> {
-        if a.nrows() != a.ncols() {
+        Self::factor_in_place(a.clone())
+    }
+
+    /// Factorises `a` in its own storage (the memory-lean path for large dense references).
+    pub fn factor_in_place(mut a: DenseMatrix<T>) -> Result<Self, LinalgError> {
+        let n = a.nrows();
+        if n != a.ncols() {
             return Err(LinalgError::DimensionMismatch {
                 what: "columns of a matrix to factorise (it must be square)",
-                expected: a.nrows(),
+                expected: n,
                 got: a.ncols(),
             });
         }
-        let (lu, min_pivot) = T::lu_factor(a);
-        if a.nrows() > 0 && (min_pivot == 0.0 || !min_pivot.is_finite()) {
-            return Err(LinalgError::Singular { n: a.nrows(), pivot: min_pivot });
+        let (mut fwd, mut bwd) = (vec![0usize; n], vec![0usize; n]);
+        if n > 0 {
+            T::lu_in_place(&mut a, &mut fwd, &mut bwd);
+            let min_pivot = (0..n).map(|i| a.get(i, i).abs()).fold(f64::INFINITY, |m, p| {
+                if p.is_finite() { m.min(p) } else { 0.0 }
+            });
+            if min_pivot == 0.0 || !min_pivot.is_finite() {
+                return Err(LinalgError::Singular { n, pivot: min_pivot });
+            }
         }
-        Ok(Self { n: a.nrows(), lu })
+        Ok(Self { lu: a, fwd, bwd })
     }
 
     /// Order of the factorised matrix.
     pub fn order(&self) -> usize {
-        self.n
+        self.lu.nrows()
     }
 
     /// Overwrites the `n × nrhs` column-major `rhs` with `A⁻¹ rhs`.
     pub fn solve_in_place(&self, rhs: &mut [T]) -> Result<(), LinalgError> {
-        if self.n == 0 {
+        let n = self.order();
+        if n == 0 {
             return Ok(());
         }
-        if !rhs.len().is_multiple_of(self.n) {
+        if !rhs.len().is_multiple_of(n) {
             return Err(LinalgError::DimensionMismatch {
                 what: "right-hand side length (a multiple of the order)",
-                expected: self.n,
+                expected: n,
                 got: rhs.len(),
             });
         }
-        T::lu_solve_in_place(&self.lu, self.n, rhs.len() / self.n, rhs);
+        T::lu_solve_packed(&self.lu, &self.fwd, &self.bwd, rhs.len() / n, rhs);
         Ok(())
     }
 }

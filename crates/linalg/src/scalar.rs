@@ -2,7 +2,6 @@
 
 use crate::LinalgError;
 use crate::dense::DenseMatrix;
-use faer::linalg::solvers::{PartialPivLu, Solve};
 use faer::{MatMut, MatRef};
 use num_complex::Complex64;
 use std::fmt::Debug;
@@ -40,8 +39,6 @@ pub trait Scalar:
     const NAME: &'static str;
     /// Bytes one stored entry takes (8 for `f64`, 16 for `Complex64`).
     const BYTES: usize = std::mem::size_of::<Self>();
-    /// Factorisation object of [`Scalar::lu_factor`].
-    type Lu: Send + Sync;
 
     /// Additive identity.
     fn zero() -> Self;
@@ -77,11 +74,14 @@ pub trait Scalar:
     fn svd_thin(a: &DenseMatrix<Self>) -> Result<Svd<Self>, LinalgError>;
     /// Singular values of `A`, non-increasing.
     fn singular_values(a: &DenseMatrix<Self>) -> Result<Vec<f64>, LinalgError>;
-    /// LU factorisation with partial pivoting of a square matrix; returns the factorisation and
-    /// the smallest modulus of `U`'s diagonal (a cheap singularity indicator).
-    fn lu_factor(a: &DenseMatrix<Self>) -> (Self::Lu, f64);
-    /// Solves `A X = B` in place for an `n × nrhs` column-major right-hand side.
-    fn lu_solve_in_place(lu: &Self::Lu, n: usize, nrhs: usize, rhs: &mut [Self]);
+    /// LU factorisation with partial pivoting `P A = L U`, in place: `a` is overwritten by `L`
+    /// (strictly lower part, unit diagonal implied) and `U` (upper part); `fwd`/`bwd` receive
+    /// the row permutation and its inverse. No copy of the matrix is made; parallel (rayon)
+    /// for orders ≥ 256.
+    fn lu_in_place(a: &mut DenseMatrix<Self>, fwd: &mut [usize], bwd: &mut [usize]);
+    /// Solves `A X = B` in place for an `n × nrhs` column-major right-hand side, with the packed
+    /// factors of [`Scalar::lu_in_place`].
+    fn lu_solve_packed(lu: &DenseMatrix<Self>, fwd: &[usize], bwd: &[usize], nrhs: usize, rhs: &mut [Self]);
     /// `C ← C + A B` (GEMM by faer, sequential: callers parallelise over blocks).
     fn gemm_add(c: &mut DenseMatrix<Self>, a: &DenseMatrix<Self>, b: &DenseMatrix<Self>);
 }
@@ -101,8 +101,6 @@ fn from_faer<T: Copy>(m: MatRef<'_, T>) -> DenseMatrix<T> {
 
 macro_rules! dense_kernels {
     ($t:ty) => {
-        type Lu = PartialPivLu<$t>;
-
         fn qr_thin(a: &DenseMatrix<Self>) -> (DenseMatrix<Self>, DenseMatrix<Self>) {
             let qr = faer_ref(a).qr();
             (from_faer(qr.compute_thin_Q().as_ref()), from_faer(qr.thin_R()))
@@ -170,20 +168,39 @@ macro_rules! dense_kernels {
                 .map_err(|_| LinalgError::SvdNoConvergence { rows: a.nrows(), cols: a.ncols() })
         }
 
-        fn lu_factor(a: &DenseMatrix<Self>) -> (Self::Lu, f64) {
-            let lu = faer_ref(a).partial_piv_lu();
-            let u = lu.U();
-            let n = u.nrows().min(u.ncols());
-            let mut min_pivot = f64::INFINITY;
-            for i in 0..n {
-                let p = Scalar::abs(u[(i, i)]);
-                min_pivot = if p.is_finite() { min_pivot.min(p) } else { 0.0 };
-            }
-            (lu, if n == 0 { 0.0 } else { min_pivot })
+        fn lu_in_place(a: &mut DenseMatrix<Self>, fwd: &mut [usize], bwd: &mut [usize]) {
+            use faer::linalg::lu::partial_pivoting::factor;
+            let n = a.nrows();
+            let par = if n >= 256 { faer::Par::rayon(0) } else { faer::Par::Seq };
+            let req = factor::lu_in_place_scratch::<usize, $t>(n, a.ncols(), par, Default::default());
+            let mut mem = faer::dyn_stack::MemBuffer::new(req);
+            factor::lu_in_place(
+                faer_mut(a),
+                fwd,
+                bwd,
+                par,
+                faer::dyn_stack::MemStack::new(&mut mem),
+                Default::default(),
+            );
         }
 
-        fn lu_solve_in_place(lu: &Self::Lu, n: usize, nrhs: usize, rhs: &mut [Self]) {
-            lu.solve_in_place(MatMut::from_column_major_slice_mut(rhs, n, nrhs));
+        fn lu_solve_packed(lu: &DenseMatrix<Self>, fwd: &[usize], bwd: &[usize], nrhs: usize, rhs: &mut [Self]) {
+            use faer::linalg::lu::partial_pivoting::solve;
+            let n = lu.nrows();
+            let par = if n >= 256 { faer::Par::rayon(0) } else { faer::Par::Seq };
+            let perm = faer::perm::PermRef::new_checked(fwd, bwd, n);
+            let req = solve::solve_in_place_scratch::<usize, $t>(n, nrhs, par);
+            let mut mem = faer::dyn_stack::MemBuffer::new(req);
+            let f = faer_ref(lu);
+            solve::solve_in_place_with_conj(
+                f,
+                f,
+                perm,
+                faer::Conj::No,
+                MatMut::from_column_major_slice_mut(rhs, n, nrhs),
+                par,
+                faer::dyn_stack::MemStack::new(&mut mem),
+            );
         }
 
         fn gemm_add(c: &mut DenseMatrix<Self>, a: &DenseMatrix<Self>, b: &DenseMatrix<Self>) {

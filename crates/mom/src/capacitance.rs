@@ -98,8 +98,7 @@ pub fn capacitance(
         let a = reference::assemble_dense(&src)?;
         timing.assemble_s = t.elapsed().as_secs_f64();
         let t = Instant::now();
-        let lu = DenseLu::factor(&a)?;
-        drop(a);
+        let lu = DenseLu::factor_in_place(a)?;
         timing.preconditioner_s = t.elapsed().as_secs_f64();
         let t = Instant::now();
         let mut all: Vec<f64> = rhs.concat();
