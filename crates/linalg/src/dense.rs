@@ -203,9 +203,9 @@ impl<T: Scalar> DenseLu<T> {
         let (mut fwd, mut bwd) = (vec![0usize; n], vec![0usize; n]);
         if n > 0 {
             T::lu_in_place(&mut a, &mut fwd, &mut bwd);
-            let min_pivot = (0..n).map(|i| a.get(i, i).abs()).fold(f64::INFINITY, |m, p| {
-                if p.is_finite() { m.min(p) } else { 0.0 }
-            });
+            let min_pivot = (0..n)
+                .map(|i| a.get(i, i).abs())
+                .fold(f64::INFINITY, |m, p| if p.is_finite() { m.min(p) } else { 0.0 });
             if min_pivot == 0.0 || !min_pivot.is_finite() {
                 return Err(LinalgError::Singular { n, pivot: min_pivot });
             }

@@ -184,7 +184,13 @@ macro_rules! dense_kernels {
             );
         }
 
-        fn lu_solve_packed(lu: &DenseMatrix<Self>, fwd: &[usize], bwd: &[usize], nrhs: usize, rhs: &mut [Self]) {
+        fn lu_solve_packed(
+            lu: &DenseMatrix<Self>,
+            fwd: &[usize],
+            bwd: &[usize],
+            nrhs: usize,
+            rhs: &mut [Self],
+        ) {
             use faer::linalg::lu::partial_pivoting::solve;
             let n = lu.nrows();
             let par = if n >= 256 { faer::Par::rayon(0) } else { faer::Par::Seq };
