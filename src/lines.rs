@@ -15,6 +15,7 @@
 use crate::extract::{green_for, green_for_air, panels};
 use anyhow::{Context, bail};
 use rafter_layout::Layout;
+use rafter_linalg::{DenseMatrix, Scalar};
 use rafter_mom::{CapacitanceOptions, capacitance};
 use serde::Serialize;
 
@@ -32,6 +33,17 @@ pub struct PairModes {
     pub eps_eff_even: f64,
     /// Odd-mode effective permittivity.
     pub eps_eff_odd: f64,
+}
+
+/// One propagation mode of the coupled lines.
+#[derive(Clone, Debug, Serialize)]
+pub struct Mode {
+    /// Modal effective permittivity `εeff,k` (phase velocity `c/√εeff,k`).
+    pub eps_eff: f64,
+    /// Modal impedance `√(vᵀ L′ v / vᵀ C′ v)` (Ω) of the voltage eigenvector `v`.
+    pub z0: f64,
+    /// Voltage eigenvector, scaled so that its largest entry is +1.
+    pub voltages: Vec<f64>,
 }
 
 /// Everything `lines.json` holds.
@@ -57,6 +69,9 @@ pub struct LineParameters {
     pub eps_eff: Vec<f64>,
     /// Even/odd modes, for a symmetric pair.
     pub pair: Option<PairModes>,
+    /// Propagation modes (eigenvectors of `C′_air⁻¹ C′`), by increasing `εeff`. In a
+    /// homogeneous medium all modes travel at one speed and the split into modes is not unique.
+    pub modes: Vec<Mode>,
     /// Unknowns of the longer model.
     pub unknowns: usize,
 }
@@ -145,7 +160,8 @@ pub fn line_parameters(layout: &Layout) -> anyhow::Result<LineParameters> {
     };
     let (c, unknowns) = per_length(false)?;
     let (c_air, _) = per_length(true)?;
-    let l = inverse(&c_air)?.iter().map(|row| row.iter().map(|v| v / (C0 * C0)).collect()).collect();
+    let l: Vec<Vec<f64>> =
+        inverse(&c_air)?.iter().map(|row| row.iter().map(|v| v / (C0 * C0)).collect()).collect();
     let n = c.len();
     let z0 = (0..n).map(|i| 1.0 / (C0 * (c[i][i] * c_air[i][i]).sqrt())).collect();
     let eps_eff = (0..n).map(|i| c[i][i] / c_air[i][i]).collect();
@@ -160,7 +176,9 @@ pub fn line_parameters(layout: &Layout) -> anyhow::Result<LineParameters> {
             eps_eff_odd: co / cao,
         }
     });
+    let modes = modes(&c, &c_air, &l)?;
     Ok(LineParameters {
+        modes,
         layout: layout.name.clone(),
         lines: layout.nets.iter().map(|n| n.name.clone()).collect(),
         lengths_m: [len, 2.0 * len],
@@ -178,6 +196,39 @@ pub fn line_parameters(layout: &Layout) -> anyhow::Result<LineParameters> {
         pair,
         unknowns,
     })
+}
+
+fn to_dense(m: &[Vec<f64>]) -> DenseMatrix<f64> {
+    DenseMatrix::from_fn(m.len(), m.len(), |i, j| m[i][j])
+}
+
+fn quad(m: &[Vec<f64>], v: &[f64]) -> f64 {
+    m.iter().zip(v).map(|(row, vi)| vi * row.iter().zip(v).map(|(a, b)| a * b).sum::<f64>()).sum()
+}
+
+/// Modes of quasi-TEM coupled lines: with `C′_air = Q Λ Qᵀ`, `S = C′_air^(−½) = Q Λ^(−½) Qᵀ`, the
+/// symmetric matrix `S C′ S = W diag(εeff) Wᵀ` has the eigenvalues of `C′_air⁻¹ C′` (similar
+/// matrices) and the voltage eigenvectors are `v = S w` (faer's self-adjoint eigen-solver for
+/// both decompositions).
+fn modes(c: &[Vec<f64>], c_air: &[Vec<f64>], l: &[Vec<f64>]) -> anyhow::Result<Vec<Mode>> {
+    let n = c.len();
+    let (lam, q) = f64::self_adjoint_eigen(&to_dense(c_air))?;
+    if lam.iter().any(|&x| !(x > 0.0)) {
+        bail!("the per-length air capacitance matrix is not positive definite; are two lines identical?");
+    }
+    let s =
+        DenseMatrix::from_fn(n, n, |i, j| (0..n).map(|k| q.get(i, k) * q.get(j, k) / lam[k].sqrt()).sum());
+    let m = s.matmul(&to_dense(c))?.matmul(&s)?;
+    let (eps, w) = f64::self_adjoint_eigen(&m)?;
+    let v = s.matmul(&w)?;
+    Ok((0..n)
+        .map(|k| {
+            let mut vk: Vec<f64> = (0..n).map(|i| v.get(i, k)).collect();
+            let peak = vk.iter().copied().fold(0.0f64, |a, x| if x.abs() > a.abs() { x } else { a });
+            vk.iter_mut().for_each(|x| *x /= peak);
+            Mode { eps_eff: eps[k], z0: (quad(l, &vk) / quad(c, &vk)).sqrt(), voltages: vk }
+        })
+        .collect())
 }
 
 /// Inverse of a small symmetric positive-definite matrix by Gauss–Jordan elimination with
@@ -227,6 +278,9 @@ pub fn table_text(p: &LineParameters) -> String {
             p.capacitance_per_m[i][i] * 1e12,
             p.inductance_per_m[i][i] * 1e9
         );
+    }
+    for (k, m) in p.modes.iter().enumerate() {
+        let _ = writeln!(s, "mode {k}: εeff {:.4}, Z {:.3} Ω, voltages {:?}", m.eps_eff, m.z0, m.voltages);
     }
     if let Some(m) = &p.pair {
         let _ = writeln!(

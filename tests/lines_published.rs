@@ -103,3 +103,25 @@ fn microstrip_on_dielectric_matches_hammerstad_jensen() {
         }
     }
 }
+
+/// Coupled microstrip on εr = 4.4 (inhomogeneous, so the two modes travel at different
+/// speeds): the general modal decomposition (eigenvectors of C′_air⁻¹ C′) must reproduce the
+/// even/odd formulas of a symmetric pair — voltages (1, 1) and (1, −1), the same εeff and Z —
+/// and the odd mode, with more of its field in the air between the strips, must be the faster
+/// one with the lower impedance (coupled-line theory, e.g. Pozar ch. 7).
+#[test]
+fn modes_reproduce_even_and_odd() {
+    let stack = r#"{ name = "gnd", kind = "ground" }, { name = "sub", kind = "dielectric", thickness = 1.0, eps_r = 4.4 }"#;
+    let p = line_parameters(&layout(stack, "sub", &[(-1.25, -0.25), (0.25, 1.25)], 6.0, 0.2)).unwrap();
+    let pair = p.pair.clone().expect("symmetric pair");
+    assert_eq!(p.modes.len(), 2);
+    let (odd, even) = (&p.modes[0], &p.modes[1]);
+    eprintln!("modes: {odd:?} {even:?}; pair {pair:?}");
+    assert!((even.voltages[0] - 1.0).abs() < 1e-3 && (even.voltages[1] - 1.0).abs() < 1e-3);
+    assert!((odd.voltages[0] + odd.voltages[1]).abs() < 1e-3);
+    assert!((even.eps_eff - pair.eps_eff_even).abs() < 1e-3 * pair.eps_eff_even);
+    assert!((odd.eps_eff - pair.eps_eff_odd).abs() < 1e-3 * pair.eps_eff_odd);
+    assert!((even.z0 - pair.z0_even).abs() < 1e-3 * pair.z0_even);
+    assert!((odd.z0 - pair.z0_odd).abs() < 1e-3 * pair.z0_odd);
+    assert!(pair.eps_eff_odd < pair.eps_eff_even && pair.z0_odd < pair.z0_even);
+}

@@ -37,6 +37,12 @@ pub enum LinalgError {
         /// Columns of the matrix.
         cols: usize,
     },
+    /// The self-adjoint eigen-decomposition did not converge.
+    #[error("the eigen-decomposition of a {n}×{n} matrix did not converge (are there NaN entries?)")]
+    EigenNoConvergence {
+        /// Order of the matrix.
+        n: usize,
+    },
     /// The LU factorisation met an exactly zero or non-finite pivot.
     #[error(
         "the {n}×{n} matrix is singular to working precision (smallest pivot modulus {pivot:e}); \

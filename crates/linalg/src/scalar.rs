@@ -72,6 +72,9 @@ pub trait Scalar:
     fn householder_apply(factors: &DenseMatrix<Self>, coeff: &DenseMatrix<Self>, x: &mut DenseMatrix<Self>);
     /// Thin SVD `A = W diag(σ) Zᴴ`: returns `(W, σ, Z)` with σ non-increasing.
     fn svd_thin(a: &DenseMatrix<Self>) -> Result<Svd<Self>, LinalgError>;
+    /// Eigen-decomposition `A = Q diag(λ) Qᴴ` of a self-adjoint matrix (only its lower triangle
+    /// is read): returns `(λ, Q)` with `λ` non-decreasing and orthonormal columns in `Q`.
+    fn self_adjoint_eigen(a: &DenseMatrix<Self>) -> Result<(Vec<f64>, DenseMatrix<Self>), LinalgError>;
     /// Singular values of `A`, non-increasing.
     fn singular_values(a: &DenseMatrix<Self>) -> Result<Vec<f64>, LinalgError>;
     /// LU factorisation with partial pivoting `P A = L U`, in place: `a` is overwritten by `L`
@@ -160,6 +163,15 @@ macro_rules! dense_kernels {
             let s = svd.S().column_vector();
             let sigma = (0..s.nrows()).map(|i| s[i].abs()).collect();
             Ok((from_faer(svd.U()), sigma, from_faer(svd.V())))
+        }
+
+        fn self_adjoint_eigen(a: &DenseMatrix<Self>) -> Result<(Vec<f64>, DenseMatrix<Self>), LinalgError> {
+            let e = faer_ref(a)
+                .self_adjoint_eigen(faer::Side::Lower)
+                .map_err(|_| LinalgError::EigenNoConvergence { n: a.nrows() })?;
+            let s = e.S().column_vector();
+            let lambda = (0..s.nrows()).map(|i| Scalar::re(s[i])).collect();
+            Ok((lambda, from_faer(e.U())))
         }
 
         fn singular_values(a: &DenseMatrix<Self>) -> Result<Vec<f64>, LinalgError> {
