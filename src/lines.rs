@@ -213,7 +213,7 @@ fn quad(m: &[Vec<f64>], v: &[f64]) -> f64 {
 fn modes(c: &[Vec<f64>], c_air: &[Vec<f64>], l: &[Vec<f64>]) -> anyhow::Result<Vec<Mode>> {
     let n = c.len();
     let (lam, q) = f64::self_adjoint_eigen(&to_dense(c_air))?;
-    if lam.iter().any(|&x| !(x > 0.0)) {
+    if lam.iter().any(|&x| x.is_nan() || x <= 0.0) {
         bail!("the per-length air capacitance matrix is not positive definite; are two lines identical?");
     }
     let s =
