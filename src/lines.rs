@@ -15,7 +15,7 @@
 use crate::extract::{green_for, green_for_air, panels};
 use anyhow::{Context, bail};
 use rafter_layout::Layout;
-use rafter_linalg::{DenseMatrix, Scalar};
+use rafter_linalg::{DenseLu, DenseMatrix, Scalar};
 use rafter_mom::{CapacitanceOptions, capacitance};
 use serde::Serialize;
 
@@ -231,36 +231,15 @@ fn modes(c: &[Vec<f64>], c_air: &[Vec<f64>], l: &[Vec<f64>]) -> anyhow::Result<V
         .collect())
 }
 
-/// Inverse of a small symmetric positive-definite matrix by Gauss–Jordan elimination with
-/// partial pivoting; fails when it is singular.
+/// Inverse of a small square matrix by faer's LU (the linalg crate's `DenseLu`): solves
+/// `M X = I`; fails when the matrix is singular.
 fn inverse(m: &[Vec<f64>]) -> anyhow::Result<Vec<Vec<f64>>> {
     let n = m.len();
-    let mut a: Vec<Vec<f64>> = m.to_vec();
-    let mut inv: Vec<Vec<f64>> =
-        (0..n).map(|i| (0..n).map(|j| if i == j { 1.0 } else { 0.0 }).collect()).collect();
-    for col in 0..n {
-        let p = (col..n).max_by(|&x, &y| a[x][col].abs().total_cmp(&a[y][col].abs())).unwrap_or(col);
-        if a[p][col] == 0.0 {
-            bail!("the per-length air capacitance matrix is singular; are two lines identical?");
-        }
-        a.swap(col, p);
-        inv.swap(col, p);
-        let d = a[col][col];
-        for j in 0..n {
-            a[col][j] /= d;
-            inv[col][j] /= d;
-        }
-        for r in 0..n {
-            if r != col {
-                let f = a[r][col];
-                for j in 0..n {
-                    a[r][j] -= f * a[col][j];
-                    inv[r][j] -= f * inv[col][j];
-                }
-            }
-        }
-    }
-    Ok(inv)
+    let lu = DenseLu::factor(&to_dense(m))
+        .context("the per-length air capacitance matrix is singular; are two lines identical?")?;
+    let mut x = DenseMatrix::from_fn(n, n, |i, j| if i == j { 1.0 } else { 0.0 });
+    lu.solve_in_place(x.as_mut_slice())?;
+    Ok((0..n).map(|i| (0..n).map(|j| x.get(i, j)).collect()).collect())
 }
 
 /// A terminal summary.
