@@ -74,9 +74,13 @@
 //! `J0`, `J1` from `puruspe` (checked to rounding against Bessel's integral in the tests).
 //!
 //! For each pair of requested faces, `r` is tabulated once on `ρ ∈ [0, ρ_max]` in the
-//! stretched variable `σ = asinh(ρ / L)`, `L = |Δz| + 2 d_near`, with piecewise cubic Hermite
-//! interpolation (values and exact derivatives `r′(ρ) = −∫ (f − f_x) k J1(kρ) dk`). Starting
-//! from `4 σ_max` equal intervals, intervals are bisected until the interpolant at every
+//! stretched variable `σ = ρ / (ρ + L)` ∈ `[0, 1)`, `L = |Δz| + 2 d_near`, with piecewise cubic
+//! Hermite interpolation (values and exact derivatives `r′(ρ) = −∫ (f − f_x) k J1(kρ) dk`).
+//! The stretch costs one division per lookup, and it suits both ends: near `ρ = 0` the
+//! remainder is an even analytic function of `ρ ≈ Lσ`, and far away it is a series in odd
+//! powers of `1/ρ` (multipole-like terms of the images it stands for), i.e. analytic in
+//! `1 − σ = L/(ρ + L)` at `σ = 1`. Starting from 16 equal intervals, intervals are bisected
+//! until the interpolant at every
 //! interval midpoint (where the Hermite error `∝ t²(1 − t)²` peaks) agrees with the direct
 //! integral to `accuracy/4` of the potential there. Where the potential is far smaller than the
 //! closed-form terms — between two grounds it decays like `e^{−πρ/b}` — the tolerance is
@@ -92,7 +96,8 @@
 //! # Panel integrals
 //!
 //! Far from the panel (where a Gauss rule of order ≤ 6 meets the accuracy for `1/R`,
-//! [`rule_for`]) the total potential is integrated by that rule. Near it the extracted terms
+//! [`rule_for`]) the extracted terms are integrated by that rule and the remainder by the rule
+//! its own smoothness length allows (below). Near it the extracted terms
 //! are integrated in closed form ([`inverse_distance`]: the true distance from the observer to
 //! a point of the panel is exactly `√(ρ² + (z − z′)²)`, and the second term is the same panel
 //! moved to `D` below the observer) and the smooth remainder by Gauss rules
@@ -345,7 +350,7 @@ impl HankelRule {
     }
 }
 
-/// The remainder of one (unordered) pair of nodes: Hermite table in `σ = asinh(ρ/L)`.
+/// The remainder of one (unordered) pair of nodes: Hermite table in `σ = ρ/(ρ + L)`.
 #[derive(Clone, Debug)]
 struct PairTable {
     /// The two nodes, `lo ≤ hi`.
@@ -390,9 +395,7 @@ impl PairTable {
     }
 
     fn interpolate(&self, rho: f64) -> f64 {
-        // asinh(x) = ln(x + √(x² + 1)) for x ≥ 0 (no cancellation there).
-        let r = rho / self.len;
-        let s = (r + (r * r + 1.0).sqrt()).ln();
+        let s = rho / (rho + self.len);
         let n = self.sigma.len();
         let b = (((s - self.sigma[0]) * self.bucket_scale) as usize).min(self.bucket.len() - 1);
         let mut i = self.bucket[b] as usize;
@@ -594,14 +597,15 @@ impl LayeredGreen {
                 self.accuracy
             )));
         }
-        // Adaptive Hermite table in σ = asinh(ρ/L).
-        let s_max = (self.rho_max / len).asinh();
+        // Adaptive Hermite table in σ = ρ/(ρ + L): ρ = Lσ/(1 − σ), dρ/dσ = (ρ + L)²/L.
+        let s_max = self.rho_max / (self.rho_max + len);
+        let rho_of = |s: f64| len * s / (1.0 - s);
         let eval = |s: f64| {
-            let rho = len * s.sinh();
+            let rho = rho_of(s);
             let (v, dv) = rule.value_and_slope(rho);
-            (v, dv * (len * len + rho * rho).sqrt())
+            (v, dv * (rho + len) * (rho + len) / len)
         };
-        let n0 = ((4.0 * s_max).ceil() as usize).max(4);
+        let n0 = 16;
         let mut sig: Vec<f64> = (0..=n0).map(|i| s_max * i as f64 / n0 as f64).collect();
         if s_max == 0.0 {
             sig = vec![0.0, 1e-9];
@@ -627,7 +631,7 @@ impl LayeredGreen {
                 let (i, j) = (*i, *j);
                 let h = sig[j] - sig[i];
                 let interp = 0.5 * (vals[i].0 + vals[j].0) + 0.125 * h * (vals[i].1 - vals[j].1);
-                let rho = len * m.sinh();
+                let rho = rho_of(m);
                 if (interp - vm).abs() > self.tolerance(&x, &rule, rho, vm) {
                     let k = sig.len();
                     sig.push(m);
@@ -790,15 +794,15 @@ fn direct_remainder(stack: &Stack, s: usize, t: usize, rho: f64, min_nodes: usiz
 impl StaticGreen for LayeredGreen {
     /// `G = (1/(2π ε0)) [A/√(ρ² + (z − z′)²) + c/√(ρ² + D²) + r(ρ; z, z′)]` (V per C).
     fn potential(&self, obs: [f64; 3], src: [f64; 3]) -> f64 {
-        let rho = (obs[0] - src[0]).hypot(obs[1] - src[1]);
+        let rho = rho_xy(obs, src);
         self.scaled(rho, obs[2], src[2]) / (2.0 * PI * EPS0)
     }
 
     fn panel_potential(&self, obs: [f64; 3], panel: &Panel) -> f64 {
         let zs = panel.z();
         let dist = panel.distance(obs);
-        // Far: the whole kernel by a Gauss rule (table found once for the panel when both
-        // heights are tabulated faces, the common case).
+        // Far: the closed-form terms by the Gauss rule that `1/R` needs at this distance, the
+        // smooth remainder by the (often lower-order) rule its own smoothness length allows.
         if let Some((nx, ny)) = rule_for(panel, dist, self.accuracy) {
             let pair = match (self.node_at(obs[2]), self.node_at(zs)) {
                 (Some(t), Some(s)) if !self.stack.on_ground(t) && !self.stack.on_ground(s) => {
@@ -807,18 +811,26 @@ impl StaticGreen for LayeredGreen {
                 _ => None,
             };
             let integral = match pair {
-                Some(p) => panel_rule(panel, nx, ny, |q| {
-                    let rho = (obs[0] - q[0]).hypot(obs[1] - q[1]);
-                    let rem = if rho <= p.rho_max {
-                        p.interpolate(rho)
-                    } else {
-                        direct_remainder(&self.stack, p.lo, p.hi, rho, p.rule.k.len())
+                Some(p) => {
+                    let smooth = smooth_rule(panel, obs, p.len, self.accuracy).unwrap_or((nx, ny));
+                    let rem = |rho: f64| {
+                        if rho <= p.rho_max {
+                            p.interpolate(rho)
+                        } else {
+                            direct_remainder(&self.stack, p.lo, p.hi, rho, p.rule.k.len())
+                        }
                     };
-                    p.x.spatial(rho) + rem
-                }),
-                None => panel_rule(panel, nx, ny, |q| {
-                    self.scaled((obs[0] - q[0]).hypot(obs[1] - q[1]), obs[2], zs)
-                }),
+                    if smooth == (nx, ny) {
+                        panel_rule(panel, nx, ny, |q| {
+                            let rho = rho_xy(obs, q);
+                            p.x.spatial(rho) + rem(rho)
+                        })
+                    } else {
+                        panel_rule(panel, nx, ny, |q| p.x.spatial(rho_xy(obs, q)))
+                            + panel_rule(panel, smooth.0, smooth.1, |q| rem(rho_xy(obs, q)))
+                    }
+                }
+                None => panel_rule(panel, nx, ny, |q| self.scaled(rho_xy(obs, q), obs[2], zs)),
             };
             return integral / (2.0 * PI * EPS0 * panel.area());
         }
@@ -836,8 +848,7 @@ impl StaticGreen for LayeredGreen {
             + x.c * inverse_distance(obs, &panel.at(obs[2] - x.d_img), self.accuracy);
         let len = x.d_img;
         let remainder = smooth_integral(panel, obs, len, self.accuracy, 0, &|q| {
-            let rho = (obs[0] - q[0]).hypot(obs[1] - q[1]);
-            self.remainder(rho, obs[2], zs, &x)
+            self.remainder(rho_xy(obs, q), obs[2], zs, &x)
         });
         (singular + remainder) / (2.0 * PI * EPS0 * panel.area())
     }
@@ -854,9 +865,24 @@ impl StaticGreen for LayeredGreen {
     }
 }
 
+/// Horizontal distance `ρ` (m) between two points.
+#[inline]
+fn rho_xy(a: [f64; 3], b: [f64; 3]) -> f64 {
+    let (dx, dy) = (a[0] - b[0], a[1] - b[1]);
+    (dx * dx + dy * dy).sqrt()
+}
+
+/// The Gauss rule for a function smooth on the length `len` over `panel` as seen from `obs`:
+/// the rule [`rule_for`] gives `1/R` at the distance `√(ρ_⊥² + len²)` (`ρ_⊥` the horizontal
+/// distance from `obs` to the panel), `None` when no rule of order ≤ 6 suffices.
+fn smooth_rule(panel: &Panel, obs: [f64; 3], len: f64, accuracy: f64) -> Option<(usize, usize)> {
+    let flat = panel.distance([obs[0], obs[1], panel.z()]);
+    rule_for(panel, (flat * flat + len * len).sqrt(), accuracy)
+}
+
 /// `∫∫_panel f dA` for `f` smooth on the length `len` (its nearest singularity lies at
-/// vertical distance `≥ len` from the panel's plane): the Gauss rule chosen as for `1/R` at
-/// distance `√(ρ_⊥² + len²)`, the panel quartered until such a rule exists.
+/// vertical distance `≥ len` from the panel's plane): the rule of [`smooth_rule`], the panel
+/// quartered until such a rule exists.
 fn smooth_integral(
     panel: &Panel,
     obs: [f64; 3],
@@ -865,9 +891,7 @@ fn smooth_integral(
     depth: usize,
     f: &dyn Fn([f64; 3]) -> f64,
 ) -> f64 {
-    let flat = panel.distance([obs[0], obs[1], panel.z()]);
-    let d = (flat * flat + len * len).sqrt();
-    match rule_for(panel, d, accuracy) {
+    match smooth_rule(panel, obs, len, accuracy) {
         Some((nx, ny)) => panel_rule(panel, nx, ny, f),
         None if depth >= MAX_SPLIT_DEPTH => {
             panel_rule(panel, crate::quadrature::MAX_ORDER, crate::quadrature::MAX_ORDER, f)
