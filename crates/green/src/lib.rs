@@ -16,8 +16,10 @@
 
 #![warn(missing_docs)]
 
+mod hermite;
 pub mod homogeneous;
 pub mod layered;
+mod modal;
 pub mod panel;
 pub mod quadrature;
 
