@@ -374,10 +374,10 @@ struct PairTable {
     modal: Option<ModalTable>,
 }
 
-/// `2π ε0 G = e^{−κ_1 ρ} m(ρ)` for `ρ ≥ ρ_modal`, `m(ρ) = Σ_n c_n e^{κ_1 ρ} K0(κ_n ρ)` tabulated
-/// (see [`crate::modal`]).
+/// `2π ε0 G = M(ρ) = Σ_n c_n K0(κ_n ρ)` for `ρ ≥ ρ_modal`, tabulated (see [`crate::modal`]).
 #[derive(Clone, Debug)]
 struct ModalTable {
+    /// `κ_1` (1/m): `M` varies no faster than `e^{−κ_1 ρ}`.
     kappa1: f64,
     from: f64,
     m: HermiteTable,
@@ -409,7 +409,7 @@ impl PairTable {
 impl ModalTable {
     #[inline]
     fn value(&self, rho: f64) -> f64 {
-        (-self.kappa1 * rho).exp() * self.m.eval(rho)
+        self.m.eval(rho)
     }
 }
 
@@ -623,28 +623,30 @@ impl LayeredGreen {
         .map_err(|_| too_many("remainder", rho_end))?;
         let modal = match &self.modes {
             Some(md) if self.rho_max > rho_end => {
-                let kappa1 = md.kappa[0];
                 let c: Vec<f64> = md.psi.iter().map(|p| p[lo] * p[hi]).collect();
+                // M(ρ) = Σ c_n K0(κ_n ρ), M′ = −Σ c_n κ_n K1(κ_n ρ), from the scaled functions
+                // (no overflow of the parts, underflow of the product to 0 far out).
                 let m = |rho: f64| {
                     let (mut v, mut dv) = (0.0, 0.0);
                     for (&k, &cn) in md.kappa.iter().zip(&c) {
-                        let decay = (-(k - kappa1) * rho).exp();
-                        let (k0, k1) = (k0_scaled(k * rho), k1_scaled(k * rho));
-                        v += cn * decay * k0;
-                        dv += cn * decay * (kappa1 * k0 - k * k1);
+                        let decay = (-k * rho).exp();
+                        v += cn * decay * k0_scaled(k * rho);
+                        dv -= cn * decay * k * k1_scaled(k * rho);
                     }
                     (v, dv)
                 };
+                // Nearly linear in ρ (stretch length far beyond the range): the relative
+                // Hermite error of an exponential is the same at every ρ for a fixed step.
                 let table = HermiteTable::build(
                     rho_end,
-                    rho_end,
+                    100.0 * self.rho_max,
                     self.rho_max,
                     &m,
-                    |_, v| 0.25 * self.accuracy * v.abs(),
+                    |_, v| (0.25 * self.accuracy * v.abs()).max(1e-280),
                     MAX_TABLE_NODES,
                 )
                 .map_err(|_| too_many("modal", self.rho_max))?;
-                Some(ModalTable { kappa1, from: rho_end, m: table })
+                Some(ModalTable { kappa1: md.kappa[0], from: rho_end, m: table })
             }
             _ => None,
         };
