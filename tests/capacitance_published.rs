@@ -79,24 +79,27 @@ fn microstrip_error_falls_with_refinement() {
     assert!(errs[1] < errs[0], "{errs:?}");
 }
 
-/// Stripline, zero-thickness strip centred between grounds b = 2 mm apart, εr = 2.2:
+/// Stripline, zero-thickness strip centred between grounds b = 2 mm apart, εr = 2.2 and 4.4:
 /// Z0 = √εr / (c C′) within 1 % of Cohn's exact result, "Characteristic impedance of the
 /// shielded-strip transmission line", IRE Trans. MTT-2, 1954 (air values 139.917 Ω at
 /// w/b = 0.25 and 65.3536 Ω at w/b = 1 from the shared references' table, divided by √εr).
 #[test]
 fn stripline_matches_cohn() {
-    let stack = r#"{ name = "g0", kind = "ground" },
-        { name = "lo", kind = "dielectric", thickness = 1.0, eps_r = 2.2 },
-        { name = "hi", kind = "dielectric", thickness = 1.0, eps_r = 2.2 },
-        { name = "g1", kind = "ground" }"#;
-    let er: f64 = 2.2;
-    for (wb, z_air) in [(0.25, 139.917), (1.0, 65.3536)] {
-        let w = wb * 2.0;
-        let c = per_length(stack, "lo", w, w / 6.0);
-        let z0 = er.sqrt() / (C0 * c);
-        let want = z_air / er.sqrt();
-        eprintln!("w/b = {wb}: Z0 = {z0:.4} Ω (Cohn {want:.4})");
-        assert!((z0 - want).abs() <= 0.01 * want, "w/b = {wb}: {z0} vs {want}");
+    for er in [2.2f64, 4.4] {
+        let stack = format!(
+            r#"{{ name = "g0", kind = "ground" }},
+            {{ name = "lo", kind = "dielectric", thickness = 1.0, eps_r = {er} }},
+            {{ name = "hi", kind = "dielectric", thickness = 1.0, eps_r = {er} }},
+            {{ name = "g1", kind = "ground" }}"#
+        );
+        for (wb, z_air) in [(0.25, 139.917), (1.0, 65.3536)] {
+            let w = wb * 2.0;
+            let c = per_length(&stack, "lo", w, w / 6.0);
+            let z0 = er.sqrt() / (C0 * c);
+            let want = z_air / er.sqrt();
+            eprintln!("εr = {er}, w/b = {wb}: Z0 = {z0:.4} Ω (Cohn {want:.4})");
+            assert!((z0 - want).abs() <= 0.01 * want, "εr = {er}, w/b = {wb}: {z0} vs {want}");
+        }
     }
 }
 
