@@ -160,7 +160,19 @@ fn green_with(layout: &Layout, eps_override: Option<f64>) -> anyhow::Result<Box<
                     rho_max,
                     accuracy,
                 )
-                .map_err(|e| anyhow::anyhow!("{}: stackup.layers: {e}", layout.file))?,
+                .map_err(|e| {
+                    let names: Vec<String> =
+                        dielectrics.iter().enumerate().map(|(i, (name, _))| format!("{i} = {name}")).collect();
+                    anyhow::anyhow!(
+                        "{}: stackup.layers: {e}\n  (faces numbered bottom to top: {})\n  hint: the layered \
+                         Green's function is tabulated out to the layout's extent to accuracy solve.tolerance/10; \
+                         a layer far thinner than the layout is wide, or a very tight tolerance, makes that \
+                         too costly — thicken the layer, extract a smaller part of the layout, or loosen \
+                         solve.tolerance",
+                        layout.file,
+                        names.join(", ")
+                    )
+                })?,
             )
         }
     };

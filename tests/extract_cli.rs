@@ -89,9 +89,23 @@ fn unsupported_or_bad_layouts_are_refused() {
     let dir = scratch("bad");
     let thin = PAIR.replace("thickness = 0.5, eps_r = 1.0", "thickness = 0.0, eps_r = 1.0");
     let negative = PAIR.replace("width = 0.2, path = [[0, 0]", "width = -0.2, path = [[0, 0]");
+    // A 1 µm film under a 200 mm layout: the layered Green's function's table would need
+    // millions of spectral samples; the refusal names the face pair and why.
+    let film = PAIR
+        .replace(
+            "{ name = \"air\", kind = \"dielectric\", thickness = 0.5, eps_r = 1.0 }",
+            "{ name = \"film\", kind = \"dielectric\", thickness = 0.001, eps_r = 4.4 }, \
+             { name = \"air\", kind = \"dielectric\", thickness = 0.5, eps_r = 3.0 }",
+        )
+        .replace("on = \"air\"", "on = \"film\"")
+        .replace("[3, 0]]", "[200, 0]]")
+        .replace("[3, 0.5]]", "[200, 0.5]]")
+        .replace("max_cell = 0.1", "max_cell = 5");
     for (name, text, needle) in [
         ("thin.toml", thin.as_str(), "thickness"),
         ("negative.toml", negative.as_str(), "net[0].shapes[0].trace.width = -0.2"),
+        ("film.toml", film.as_str(), "faces 0 and 0: the spectral integral would need"),
+        ("film.toml", film.as_str(), "0 = film"),
     ] {
         std::fs::write(dir.join(name), text).unwrap();
         let out = rafter()
