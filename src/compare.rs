@@ -53,9 +53,9 @@ pub struct SizeReport {
 
 /// Couplings weaker than this fraction of `√(C_ii C_jj)` are compared in absolute terms
 /// (`max_diff_of_self`) rather than relative ones. The adjoint-corrected iterative result
-/// carries an error of order `τ · asymmetry · √(C_ii C_jj)` (`τ = 10 ε` the GMRES tolerance;
-/// measured ≈ 10⁻⁷ at ε = 10⁻⁴ on the crossed-bus demo), so a relative 10⁻³ is within reach
-/// only above 10⁻⁴; the dense LU's own rounding error is of order `cond(P) ε_mach`. Between
+/// carries an error that falls with the GMRES tolerance `τ = 2 ε` (measured ≈ 3·10⁻⁸
+/// `√(C_ii C_jj)` at ε = 10⁻⁴ on the crossed-bus demo), so a relative 10⁻³ is within reach
+/// above 10⁻⁴; the dense LU's own rounding error is of order `cond(P) ε_mach`. Between
 /// two grounds couplings fall off like `e^{−πρ/b}` and reach 10⁻²⁰ across a bus: no solver
 /// resolves those relatively, and they are counted and reported.
 pub const RESOLVED: f64 = 1e-4;

@@ -20,10 +20,11 @@ pub(crate) struct HermiteTable {
     len: f64,
     /// Last tabulated `ρ` (m).
     end: f64,
-    /// Nodes `σ_i` (increasing), values, slopes `df/dσ`.
+    /// Nodes `σ_i` (increasing).
     sigma: Vec<f64>,
-    val: Vec<f64>,
-    slope: Vec<f64>,
+    /// Per interval `i`: `[f_i, h f′_i, f_{i+1}, h f′_{i+1}]` (`h` its width, `f′ = df/dσ`), one
+    /// cache line per lookup.
+    cubic: Vec<[f64; 4]>,
     /// `bucket[b]`: the last node at or below the start of bucket `b` of a uniform partition of
     /// `[σ_0, σ_last]` (four buckets per node).
     bucket: Vec<u32>,
@@ -89,16 +90,14 @@ impl HermiteTable {
         order.sort_by(|&x, &y| sig[x].total_cmp(&sig[y]));
         let sigma: Vec<f64> = order.iter().map(|&i| sig[i]).collect();
         let (bucket, bucket_scale) = buckets(&sigma);
-        Ok(Self {
-            origin,
-            len,
-            end,
-            val: order.iter().map(|&i| vals[i].0).collect(),
-            slope: order.iter().map(|&i| vals[i].1).collect(),
-            sigma,
-            bucket,
-            bucket_scale,
-        })
+        let cubic = order
+            .windows(2)
+            .map(|w| {
+                let h = sig[w[1]] - sig[w[0]];
+                [vals[w[0]].0, h * vals[w[0]].1, vals[w[1]].0, h * vals[w[1]].1]
+            })
+            .collect();
+        Ok(Self { origin, len, end, sigma, cubic, bucket, bucket_scale })
     }
 
     /// Last tabulated `ρ` (m).
@@ -124,14 +123,11 @@ impl HermiteTable {
         }
         let i = i.min(n - 2);
         let (s0, s1) = (self.sigma[i], self.sigma[i + 1]);
-        let h = s1 - s0;
-        let t = ((s - s0) / h).clamp(0.0, 1.0);
-        let (t2, t3) = (t * t, t * t * t);
-        let h00 = 2.0 * t3 - 3.0 * t2 + 1.0;
-        let h10 = t3 - 2.0 * t2 + t;
-        let h01 = -2.0 * t3 + 3.0 * t2;
-        let h11 = t3 - t2;
-        h00 * self.val[i] + h10 * h * self.slope[i] + h01 * self.val[i + 1] + h11 * h * self.slope[i + 1]
+        let t = ((s - s0) / (s1 - s0)).clamp(0.0, 1.0);
+        let [v0, d0, v1, d1] = self.cubic[i];
+        // Hermite basis in Horner-friendly form: f = v0 + t²(3 − 2t)(v1 − v0) + t(1 − t)²d0 − t²(1 − t)d1.
+        let u = 1.0 - t;
+        v0 + t * t * (3.0 - 2.0 * t) * (v1 - v0) + t * u * (u * d0 - t * d1)
     }
 }
 

@@ -796,12 +796,16 @@ impl StaticGreen for LayeredGreen {
                     let flat = panel.distance([obs[0], obs[1], zs]);
                     match &p.modal {
                         // Near or beyond the switch to the modal form: the whole kernel by one
-                        // rule, fine enough for `e^{−κ_1 ρ}` as well as for `1/R`.
+                        // rule, fine enough for `e^{−κ_1 ρ}` as well as for `1/R`. (An n-point
+                        // Gauss rule integrates `e^{−κx}` over a side `s` to the accuracy it
+                        // reaches for `1/R` at a distance of about 2.6/κ for n = 2 and 3.2/κ for
+                        // n = 3, from the rule's error term (Abramowitz & Stegun 25.4.30); 2/κ_1
+                        // keeps a margin for the higher modes near the switch.)
                         Some(md) if flat + 2.0 * panel.max_side() >= md.from => smooth_integral(
                             panel,
                             obs,
                             (obs[2] - zs).abs(),
-                            1.0 / md.kappa1,
+                            2.0 / md.kappa1,
                             self.accuracy,
                             0,
                             &|q| p.total(&self.stack, rho_xy(obs, q)),
@@ -1188,8 +1192,9 @@ mod tests {
         }
         // Panel potentials beyond and across the switch.
         let c = 1e-9 * b;
-        for x0 in [0.8, 1.0, 5.0, 30.0] {
-            let panel = Panel::Rect { x0: x0 * b, x1: (x0 + 0.05) * b, y0: 0.0, y1: 0.02 * b, z: 0.4 * b };
+        for (x0, side) in [(0.8, 0.05), (1.0, 0.05), (5.0, 0.05), (30.0, 0.05), (2.0, 0.3), (7.0, 0.4)] {
+            let panel =
+                Panel::Rect { x0: x0 * b, x1: (x0 + side) * b, y0: 0.0, y1: 0.4 * side * b, z: 0.4 * b };
             let obs = [c, c, 0.4 * b];
             let got = g.panel_potential(obs, &panel);
             let fine =

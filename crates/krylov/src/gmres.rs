@@ -18,7 +18,7 @@ pub struct GmresOptions {
     /// Restart length `m` (Krylov vectors kept per cycle); ≥ 1. Memory is `(m + 1) n` scalars.
     pub restart: usize,
     /// Target relative residual `‖b − A x‖ / ‖b‖`, in (0, 1). With an approximate operator of
-    /// relative accuracy ε (an H-matrix), keep it at least ~10 ε: below that the residual of
+    /// relative accuracy ε (an H-matrix), keep it above ε (2–10 ε): below that the residual of
     /// the approximate system no longer measures the error of the true one.
     pub tolerance: f64,
     /// Cap on the total number of iterations (operator applications, restarts included); ≥ 1.

@@ -9,7 +9,7 @@
 //! **Tolerances.** GMRES stops on the relative residual `‖b − A x‖ / ‖b‖` of the operator it
 //! is given. When that operator is an H-matrix approximation of a true matrix with relative
 //! error ε, residuals below about ε say nothing about the true system: keep the GMRES
-//! tolerance at least ~10 ε (see [`GmresOptions::tolerance`]).
+//! tolerance above ε, 2–10 ε (see [`GmresOptions::tolerance`]).
 //!
 //! Modules, one concept each: [`operator`] (the two seams), [`gmres`](mod@gmres) (the solver),
 //! [`precond`] (preconditioners).
