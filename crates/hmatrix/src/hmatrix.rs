@@ -4,7 +4,6 @@ use crate::schedule::{Item, Schedule, schedule};
 use crate::stats::{BlockStats, HSummary};
 use crate::{HError, HOptions, reference};
 use rafter_cluster::{Admissibility, BlockKind, BlockTree, ClusterTree};
-use rafter_linalg::dense::axpy;
 use rafter_linalg::{DenseMatrix, EntrySource, Scalar};
 use rafter_lowrank::{Compressed, LowRank, compress};
 use rayon::prelude::*;
@@ -64,19 +63,6 @@ impl<T: Scalar> HBlock<T> {
         match &self.data {
             BlockData::Dense(d) => d.clone(),
             BlockData::LowRank(l) => l.to_dense(),
-        }
-    }
-    /// `y ← y + B x` on the block's own slices of tree-ordered vectors.
-    #[inline]
-    fn gemv_add(&self, x: &[T], y: &mut [T], tmp: &mut Vec<T>) {
-        match &self.data {
-            BlockData::Dense(d) => d.gemv_add(x, y),
-            BlockData::LowRank(l) => {
-                if tmp.len() < l.rank() {
-                    tmp.resize(l.rank(), T::zero());
-                }
-                l.gemv_add(x, y, tmp)
-            }
         }
     }
 }
@@ -255,7 +241,11 @@ impl<T: Scalar> HMatrix<T> {
                 *d = xs[p];
             }
         }
-        // Vᵀ x of the low-rank blocks that span several bands, once each (rank × nrhs).
+        // Every block product below is one GEMM over all nrhs vectors (faer), on panels of the
+        // tree-ordered X (column stride n) and of the band's accumulator (column stride len):
+        // `span(rows, stride)` is the slice length a panel of `rows` rows and nrhs columns needs.
+        let span = |rows: usize, stride: usize| (nrhs - 1) * stride + rows;
+        // Vᵀ X of the low-rank blocks that span several bands, once each (rank × nrhs).
         let wide: Vec<Vec<T>> = self
             .schedule
             .wide
@@ -263,12 +253,10 @@ impl<T: Scalar> HMatrix<T> {
             .map(|&id| {
                 let b = &self.blocks[id];
                 let BlockData::LowRank(l) = &b.data else { unreachable!("wide blocks are low-rank") };
-                let k = l.rank();
+                let (k, cols) = (l.rank(), b.cols.len());
                 let mut t = vec![T::zero(); k * nrhs];
-                for r in 0..nrhs {
-                    let xs = &xt[r * n + b.cols.start..r * n + b.cols.end];
-                    l.v.gemv_transpose(xs, &mut t[r * k..(r + 1) * k]);
-                }
+                let xs = &xt[b.cols.start..b.cols.start + span(cols, n)];
+                T::gemm_add_panels((&mut t, k), (l.v.as_slice(), cols), true, (xs, n), k, nrhs, cols);
                 t
             })
             .collect();
@@ -282,36 +270,51 @@ impl<T: Scalar> HMatrix<T> {
                 let mut acc = vec![T::zero(); len * nrhs];
                 let mut tmp = Vec::new();
                 for item in &band.items {
-                    for r in 0..nrhs {
-                        let yb = &mut acc[r * len..(r + 1) * len];
-                        match *item {
-                            Item::Whole(id) => {
-                                let b = &self.blocks[id];
-                                let xs = &xt[r * n + b.cols.start..r * n + b.cols.end];
-                                let off = b.rows.start - band.rows.start;
-                                b.gemv_add(xs, &mut yb[off..off + b.rows.len()], &mut tmp);
-                            }
-                            Item::Part { block, ref rows, wide: w } => {
-                                let b = &self.blocks[block];
-                                let ys = &mut yb[rows.start - band.rows.start..rows.end - band.rows.start];
-                                let local = rows.start - b.rows.start..rows.end - b.rows.start;
-                                match (&b.data, w) {
-                                    (BlockData::LowRank(l), Some(w)) => {
-                                        let k = l.rank();
-                                        let t = &wide[w][r * k..(r + 1) * k];
-                                        for (c, &tc) in t.iter().enumerate() {
-                                            axpy(tc, &l.u.col(c)[local.clone()], ys);
-                                        }
-                                    }
-                                    (BlockData::Dense(d), _) => {
-                                        let xs = &xt[r * n + b.cols.start..r * n + b.cols.end];
-                                        for (c, &xc) in xs.iter().enumerate() {
-                                            axpy(xc, &d.col(c)[local.clone()], ys);
-                                        }
-                                    }
-                                    (BlockData::LowRank(_), None) => unreachable!("low-rank parts are wide"),
-                                }
-                            }
+                    let (block, rows) = match item {
+                        Item::Whole(id) => (*id, self.blocks[*id].rows.clone()),
+                        Item::Part { block, rows, .. } => (*block, rows.clone()),
+                    };
+                    let b = &self.blocks[block];
+                    let (m, cols) = (rows.len(), b.cols.len());
+                    let off = rows.start - band.rows.start;
+                    let local = rows.start - b.rows.start;
+                    let ys = &mut acc[off..off + span(m, len)];
+                    let xs = &xt[b.cols.start..b.cols.start + span(cols, n)];
+                    match (&b.data, item) {
+                        (BlockData::Dense(d), _) => {
+                            let a = &d.as_slice()[local..];
+                            T::gemm_add_panels((ys, len), (a, d.nrows()), false, (xs, n), m, nrhs, cols);
+                        }
+                        (BlockData::LowRank(l), Item::Whole(_)) => {
+                            let k = l.rank();
+                            tmp.clear();
+                            tmp.resize(k * nrhs, T::zero());
+                            T::gemm_add_panels(
+                                (&mut tmp, k),
+                                (l.v.as_slice(), cols),
+                                true,
+                                (xs, n),
+                                k,
+                                nrhs,
+                                cols,
+                            );
+                            T::gemm_add_panels((ys, len), (l.u.as_slice(), m), false, (&tmp, k), m, nrhs, k);
+                        }
+                        (BlockData::LowRank(l), Item::Part { wide: Some(w), .. }) => {
+                            let k = l.rank();
+                            let u = &l.u.as_slice()[local..];
+                            T::gemm_add_panels(
+                                (ys, len),
+                                (u, l.u.nrows()),
+                                false,
+                                (&wide[*w], k),
+                                m,
+                                nrhs,
+                                k,
+                            );
+                        }
+                        (BlockData::LowRank(_), Item::Part { wide: None, .. }) => {
+                            unreachable!("low-rank parts are wide")
                         }
                     }
                 }

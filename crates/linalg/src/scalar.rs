@@ -87,6 +87,21 @@ pub trait Scalar:
     fn lu_solve_packed(lu: &DenseMatrix<Self>, fwd: &[usize], bwd: &[usize], nrhs: usize, rhs: &mut [Self]);
     /// `C ← C + A B` (GEMM by faer, sequential: callers parallelise over blocks).
     fn gemm_add(c: &mut DenseMatrix<Self>, a: &DenseMatrix<Self>, b: &DenseMatrix<Self>);
+    /// `C ← C + op(A) B` on column-major panels inside larger arrays (GEMM by faer,
+    /// sequential). `C` is `m × n` with column stride `c.1`, `B` is `k × n` with column stride
+    /// `b.1`; `A` is `m × k` with column stride `a.1`, or with `a_transposed` stored as the
+    /// `k × m` matrix whose plain transpose is used. Each slice starts at its panel's first
+    /// entry. Panics when a slice is too short for its panel (an internal invariant of the
+    /// callers).
+    fn gemm_add_panels(
+        c: (&mut [Self], usize),
+        a: (&[Self], usize),
+        a_transposed: bool,
+        b: (&[Self], usize),
+        m: usize,
+        n: usize,
+        k: usize,
+    );
 }
 
 fn faer_ref<T: Copy>(a: &DenseMatrix<T>) -> MatRef<'_, T> {
@@ -219,6 +234,28 @@ macro_rules! dense_kernels {
                 par,
                 faer::dyn_stack::MemStack::new(&mut mem),
             );
+        }
+
+        fn gemm_add_panels(
+            c: (&mut [Self], usize),
+            a: (&[Self], usize),
+            a_transposed: bool,
+            b: (&[Self], usize),
+            m: usize,
+            n: usize,
+            k: usize,
+        ) {
+            if m == 0 || n == 0 || k == 0 {
+                return;
+            }
+            let cm = MatMut::from_column_major_slice_with_stride_mut(c.0, m, n, c.1);
+            let am = if a_transposed {
+                MatRef::from_column_major_slice_with_stride(a.0, k, m, a.1).transpose()
+            } else {
+                MatRef::from_column_major_slice_with_stride(a.0, m, k, a.1)
+            };
+            let bm = MatRef::from_column_major_slice_with_stride(b.0, k, n, b.1);
+            faer::linalg::matmul::matmul(cm, faer::Accum::Add, am, bm, <$t as Scalar>::one(), faer::Par::Seq);
         }
 
         fn gemm_add(c: &mut DenseMatrix<Self>, a: &DenseMatrix<Self>, b: &DenseMatrix<Self>) {
