@@ -93,6 +93,19 @@
 //! nodes, or outside an open side, are handled by cutting a layer in two (or adding an air
 //! layer) so that they become nodes; points on or beyond a ground see zero potential.
 //!
+//! # Between two grounds: the modal series far out
+//!
+//! Closed by two grounds, the potential decays like `e^{−κ_1 ρ}` (`κ_1 ≈ π/H`, `H` the stack
+//! height) and soon lies far below the extracted images it is the small difference of; the
+//! remainder table, accurate to a fraction of those images, then no longer carries any relative
+//! accuracy (and far H-matrix blocks would be noise that no low rank represents). From
+//! `ρ = H` on the potential is therefore taken from the modal series
+//! `2π ε0 G = Σ_n ψ_n(z) ψ_n(z′) K0(κ_n ρ)` (module `modal`, private), with enough modes for the
+//! accuracy at `ρ = H` and tabulated per pair of faces (nearly linear in `ρ`, so the Hermite
+//! error of the exponential decay is relative everywhere). The remainder table then only spans
+//! `[0, H]`. The two forms agree to the accuracy at the switch (tested against the closed-form
+//! series of one dielectric and against direct integration of a two-layer stack).
+//!
 //! # Panel integrals
 //!
 //! Far from the panel (where a Gauss rule of order ≤ 6 meets the accuracy for `1/R`,
