@@ -73,6 +73,50 @@ pub struct SpiceReport {
     pub between: Vec<Vec<f64>>,
 }
 
+/// The cells, their charges and the solver histories of an extraction.
+#[derive(Clone, Debug, Default)]
+pub struct Solution {
+    /// The mesh cells (m), in unknown order.
+    pub cells: Vec<rafter_layout::Cell>,
+    /// Cell charges (C) per excited net: `charges[j][k]` on cell `k` with net `j` at 1 V.
+    pub charges: Vec<Vec<f64>>,
+    /// GMRES relative residual after each iteration, per net (empty on the dense path).
+    pub histories: Vec<Vec<f64>>,
+    /// Metres per layout unit, and the unit's name (for axes).
+    pub unit_m: f64,
+    /// The layout unit's name.
+    pub unit_name: String,
+}
+
+/// Pictures of the solution that `rafter extract` draws besides the numbers.
+#[derive(Clone, Debug, Default, PartialEq)]
+pub enum Pictures {
+    /// None.
+    #[default]
+    None,
+    /// The charge density of every excited net, and the GMRES histories.
+    All,
+    /// The charge density with the named net excited, and the GMRES histories.
+    Net(String),
+}
+
+impl Pictures {
+    /// Refuses a net name the layout does not have (before any work).
+    pub fn check(&self, layout: &Layout) -> anyhow::Result<()> {
+        if let Pictures::Net(name) = self
+            && !layout.nets.iter().any(|n| &n.name == name)
+        {
+            let names: Vec<&str> = layout.nets.iter().map(|n| n.name.as_str()).collect();
+            anyhow::bail!(
+                "--picture-net {name}: {} has no net of that name (hint: one of {})",
+                layout.file,
+                names.join(", ")
+            );
+        }
+        Ok(())
+    }
+}
+
 /// Everything `capacitance.json` holds.
 #[derive(Clone, Debug, Serialize)]
 pub struct Extraction {
@@ -98,6 +142,9 @@ pub struct Extraction {
     pub method: &'static str,
     /// H-matrix figures (absent on the dense path).
     pub hmatrix: Option<HReport>,
+    /// The solution behind the numbers, for pictures (not written to JSON).
+    #[serde(skip)]
+    pub solution: Solution,
     /// GMRES figures (absent on the dense path).
     pub gmres: Option<GmresSummary>,
     /// Seconds per stage.
@@ -255,6 +302,13 @@ pub fn extract(layout: &Layout, parse_s: f64, dense: bool, hooks: Hooks<'_>) -> 
             tolerance: s.tolerance,
             blocks: s.blocks,
         }),
+        solution: Solution {
+            cells: mesh.cells.clone(),
+            charges: res.charges.clone(),
+            histories: res.gmres.iter().map(|g| g.history.clone()).collect(),
+            unit_m: layout.unit_m,
+            unit_name: layout.unit_name.clone(),
+        },
         gmres: (!dense).then(|| GmresSummary {
             iterations: res.gmres.iter().map(|g| g.iterations).collect(),
             residual: res.gmres.iter().map(|g| g.residual).collect(),
@@ -342,10 +396,32 @@ pub fn table_text(x: &Extraction) -> String {
 }
 
 /// Writes `capacitance.json`, `.csv` and `.cir` into `dir`, all or nothing.
-pub fn write_outputs(dir: &Path, x: &Extraction) -> anyhow::Result<()> {
+pub fn write_outputs(dir: &Path, x: &Extraction, pictures: &Pictures) -> anyhow::Result<()> {
     let mut st = Staging::new(dir)?;
     st.add("capacitance.json", serde_json::to_string_pretty(x)?.as_bytes())?;
     st.add("capacitance.csv", csv_text(x).as_bytes())?;
     st.add("capacitance.cir", spice_text(x).as_bytes())?;
+    if *pictures != Pictures::None {
+        let s = &x.solution;
+        for (j, net) in x.nets.iter().enumerate() {
+            if matches!(pictures, Pictures::Net(name) if name != net) {
+                continue;
+            }
+            let density: Vec<f64> = s.charges[j].iter().zip(&s.cells).map(|(q, c)| q / c.area()).collect();
+            let title = format!("{}: charge density with {net} at 1 V, others at 0 V", x.layout);
+            let pic = crate::pictures::charge_density(&s.cells, &density, s.unit_m, &s.unit_name, &title)?;
+            st.add(&format!("charge-{}.svg", node(net)), pic.svg.as_bytes())?;
+            st.add(&format!("charge-{}.png", node(net)), &pic.png)?;
+        }
+        if !s.histories.is_empty() {
+            let h: Vec<(String, Vec<f64>)> =
+                x.nets.iter().cloned().zip(s.histories.iter().cloned()).collect();
+            let tol = x.gmres.as_ref().map_or(0.0, |g| g.tolerance);
+            let title = format!("{}: GMRES convergence, one line per excited net", x.layout);
+            let pic = crate::pictures::convergence(&h, tol, &title)?;
+            st.add("gmres.svg", pic.svg.as_bytes())?;
+            st.add("gmres.png", &pic.png)?;
+        }
+    }
     st.commit()
 }

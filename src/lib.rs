@@ -11,16 +11,21 @@
 //! - [`layout`]: layout files, stack-ups and meshes;
 //! - [`green`]: quasi-static Green's functions and panel integrals;
 //! - [`mom`]: collocation operator and capacitance;
-//! - [`bench`]: the engine benchmark behind `rafter bench-engine`; [`compare`]: `rafter bench-extract`;
-//! - [`extract`]: the capacitance job behind `rafter extract`; [`lines`]: `rafter lines`; [`output`]: all-or-nothing files.
+//! - [`bench`](mod@bench): the engine benchmark behind `rafter bench-engine`; [`compare`]: `rafter bench-extract`;
+//! - [`extract`]: the capacitance job behind `rafter extract`; [`lines`]: `rafter lines`; [`output`]: all-or-nothing files;
+//! - [`pictures`]: figures (block partition, charge density, GMRES convergence) as SVG and PNG;
+//! - [`verify`]: `rafter verify` (dense-reference verification); [`blocks`]: `rafter blocks` (per-block report).
 
 #![warn(missing_docs)]
 
 pub mod bench;
+pub mod blocks;
 pub mod compare;
 pub mod extract;
 pub mod lines;
 pub mod output;
+pub mod pictures;
+pub mod verify;
 
 pub use rafter_cluster as cluster;
 pub use rafter_green as green;

@@ -48,6 +48,41 @@ enum Command {
         /// Solve densely (fill + LU) instead of by H-matrix: a reference for small layouts.
         #[arg(long)]
         dense: bool,
+        /// Also draw the charge density of every excited net (charge-NET.svg/.png) and the
+        /// GMRES convergence (gmres.svg/.png).
+        #[arg(long)]
+        pictures: bool,
+        /// Draw the charge density for this net only (implies --pictures).
+        #[arg(long, value_name = "NET")]
+        picture_net: Option<String>,
+    },
+    /// Verify the compressed solve of a layout against the dense reference (same mesh): matvec
+    /// and per-block errors, GMRES, every capacitance entry; optional tolerance trade-off.
+    Verify {
+        /// The layout file.
+        layout: PathBuf,
+        /// Output folder for verify.json (created if missing; written all or nothing).
+        #[arg(short, long)]
+        out: Option<PathBuf>,
+        /// Extra H-matrix tolerances for the trade-off table, comma-separated, each in (0, 1).
+        #[arg(long)]
+        tolerances: Option<String>,
+        /// Exit with an error when any capacitance entry differs from the dense reference by
+        /// more than this (relative, see `result_max_rel_diff`).
+        #[arg(long, allow_negative_numbers = true)]
+        max_error: Option<f64>,
+        /// Random vectors for the matvec error.
+        #[arg(long, default_value_t = 4)]
+        vectors: usize,
+    },
+    /// Per-block rank and compression of a layout's H-matrix: blocks.csv, blocks.json and a
+    /// picture of the partition (blocks.svg, blocks.png).
+    Blocks {
+        /// The layout file.
+        layout: PathBuf,
+        /// Output folder (created if missing; written all or nothing).
+        #[arg(short, long)]
+        out: PathBuf,
     },
     /// Benchmark the H-matrix engine on a point-kernel plate problem; prints one JSON object.
     BenchEngine {
@@ -94,7 +129,33 @@ fn main() -> ExitCode {
 
 fn run(cli: Cli) -> anyhow::Result<()> {
     match cli.command {
-        Command::Extract { layout, out, dense } => run_extract(&layout, &out, dense, cli.quiet),
+        Command::Extract { layout, out, dense, pictures, picture_net } => {
+            let pictures = match (pictures, picture_net) {
+                (_, Some(net)) => rafter::extract::Pictures::Net(net),
+                (true, None) => rafter::extract::Pictures::All,
+                (false, None) => rafter::extract::Pictures::None,
+            };
+            run_extract(&layout, &out, dense, &pictures, cli.quiet)
+        }
+        Command::Verify { layout, out, tolerances, max_error, vectors } => {
+            run_verify(&layout, out.as_deref(), tolerances.as_deref(), max_error, vectors, cli.quiet)
+        }
+        Command::Blocks { layout, out } => {
+            let layout = rafter::layout::load(&layout)?;
+            let st = rafter::output::Staging::new(&out)?;
+            let spin = spinner(cli.quiet, "building the H-matrix");
+            let report = rafter::blocks::blocks(&layout);
+            if let Some(s) = spin {
+                s.finish_and_clear();
+            }
+            let report = report?;
+            rafter::blocks::write(st, &report)?;
+            if !cli.quiet {
+                eprint!("{}", rafter::blocks::summary_text(&report));
+                eprintln!("wrote {}/blocks.{{csv,json,svg,png}}", out.display());
+            }
+            Ok(())
+        }
         Command::BenchExtract { layout, unknowns } => {
             let layout = rafter::layout::load(&layout)?;
             if !cli.quiet {
@@ -190,14 +251,100 @@ fn run(cli: Cli) -> anyhow::Result<()> {
     }
 }
 
+/// A spinner with a message, unless quiet.
+fn spinner(quiet: bool, msg: &str) -> Option<ProgressBar> {
+    (!quiet).then(|| {
+        let b = ProgressBar::new_spinner();
+        b.set_style(ProgressStyle::with_template("{spinner} {msg} ({elapsed})").expect("static template"));
+        b.set_message(msg.to_string());
+        b.enable_steady_tick(std::time::Duration::from_millis(200));
+        b
+    })
+}
+
+/// Parses `--tolerances a,b,c` with errors that name the value.
+fn parse_tolerances(text: &str) -> anyhow::Result<Vec<f64>> {
+    let items: Vec<&str> = text.split(',').map(str::trim).filter(|s| !s.is_empty()).collect();
+    if items.is_empty() {
+        anyhow::bail!(
+            "--tolerances: empty list (hint: give one or more values in (0, 1), e.g. --tolerances 1e-2,1e-3,1e-4)"
+        );
+    }
+    let values = items
+        .iter()
+        .map(|s| {
+            s.parse::<f64>().map_err(|_| {
+                anyhow::anyhow!(
+                    "--tolerances: '{s}' is not a number (hint: e.g. --tolerances 1e-2,1e-3,1e-4)"
+                )
+            })
+        })
+        .collect::<anyhow::Result<Vec<f64>>>()?;
+    rafter::verify::check_tolerances(&values)?;
+    Ok(values)
+}
+
+fn run_verify(
+    path: &std::path::Path,
+    out: Option<&std::path::Path>,
+    tolerances: Option<&str>,
+    max_error: Option<f64>,
+    vectors: usize,
+    quiet: bool,
+) -> anyhow::Result<()> {
+    // Every argument is checked before any work, and the output folder prepared first, so a
+    // bad request never costs a dense fill.
+    let tolerances = tolerances.map(parse_tolerances).transpose()?.unwrap_or_default();
+    if let Some(x) = max_error
+        && !(x.is_finite() && x > 0.0)
+    {
+        anyhow::bail!("--max-error: {x} must be a positive number (hint: e.g. --max-error 1e-3)");
+    }
+    let layout = rafter::layout::load(path)?;
+    let staging = out.map(rafter::output::Staging::new).transpose()?;
+    let spin = spinner(quiet, "verifying");
+    let progress = |s: &str| {
+        if let Some(b) = &spin {
+            b.set_message(s.to_string());
+        }
+    };
+    let opts = rafter::verify::VerifyOptions { tolerances, vectors };
+    let report = rafter::verify::verify(&layout, &opts, &progress);
+    if let Some(s) = &spin {
+        s.finish_and_clear();
+    }
+    let report = report?;
+    if let (Some(mut st), Some(dir)) = (staging, out) {
+        st.add("verify.json", serde_json::to_string_pretty(&report)?.as_bytes())?;
+        st.commit()?;
+        if !quiet {
+            eprintln!("wrote {}/verify.json", dir.display());
+        }
+    }
+    if !quiet {
+        eprint!("{}", rafter::verify::table(&report));
+    }
+    if let Some(x) = max_error
+        && report.result_max_rel_diff > x
+    {
+        anyhow::bail!(
+            "capacitance differs from the dense reference by {:.3e} (relative), more than --max-error {x:e}",
+            report.result_max_rel_diff
+        );
+    }
+    Ok(())
+}
+
 fn run_extract(
     path: &std::path::Path,
     out: &std::path::Path,
     dense: bool,
+    pictures: &rafter::extract::Pictures,
     quiet: bool,
 ) -> anyhow::Result<()> {
     let t = Instant::now();
     let layout = rafter::layout::load(path)?;
+    pictures.check(&layout)?;
     let parse_s = t.elapsed().as_secs_f64();
     let bar = (!quiet).then(|| {
         let b = ProgressBar::new(0);
@@ -237,7 +384,7 @@ fn run_extract(
         b.finish_and_clear();
     }
     let x = result?;
-    rafter::extract::write_outputs(out, &x)?;
+    rafter::extract::write_outputs(out, &x, pictures)?;
     if !quiet {
         eprint!("{}", rafter::extract::table_text(&x));
         if let Some(g) = &x.gmres {

@@ -4,7 +4,7 @@ use crate::{MomError, PanelCollocation};
 use rafter_green::{Panel, StaticGreen};
 use rafter_hmatrix::{HMatrix, HOptions, HSummary, reference};
 use rafter_krylov::{GmresOptions, GmresReport, LinearOperator, solve_many};
-use rafter_linalg::DenseLu;
+use rafter_linalg::{DenseLu, DenseMatrix};
 use serde::Serialize;
 use std::time::Instant;
 
@@ -96,61 +96,126 @@ pub fn capacitance(
     if panels.len() != net_of.len() {
         return Err(MomError::Input(format!("{} panels but {} net assignments", panels.len(), net_of.len())));
     }
+    check_nets(net_of, nets)?;
+    let src = PanelCollocation::new(panels, green);
+    let t = Instant::now();
+    let result = if opts.dense {
+        let a = reference::assemble_dense(&src)?;
+        let assemble_s = t.elapsed().as_secs_f64();
+        let mut r = solve_dense(a, net_of, nets)?;
+        r.timing.assemble_s = assemble_s;
+        r
+    } else {
+        let h = HMatrix::build_square(&src, src.centres(), &opts.hmatrix, build_progress)?;
+        let assemble_s = t.elapsed().as_secs_f64();
+        let mut r = solve_compressed(&h, net_of, nets, &opts.gmres, gmres_progress)?;
+        r.timing.assemble_s = assemble_s;
+        r
+    };
+    Ok(result)
+}
+
+/// Every net index below `nets`, and every net present.
+fn check_nets(net_of: &[usize], nets: usize) -> Result<(), MomError> {
     if let Some(&bad) = net_of.iter().find(|&&k| k >= nets) {
         return Err(MomError::Input(format!("panel assigned to net {bad}, but there are only {nets} nets")));
     }
     if (0..nets).any(|k| !net_of.contains(&k)) {
         return Err(MomError::Input("every net needs at least one panel".into()));
     }
-    let src = PanelCollocation::new(panels, green);
-    let n = panels.len();
-    let rhs: Vec<Vec<f64>> =
-        (0..nets).map(|j| net_of.iter().map(|&k| if k == j { 1.0 } else { 0.0 }).collect()).collect();
+    Ok(())
+}
+
+/// The excitations `v_j`: net `j`'s panels at 1 V, all others at 0 V.
+fn excitations(net_of: &[usize], nets: usize) -> Vec<Vec<f64>> {
+    (0..nets).map(|j| net_of.iter().map(|&k| if k == j { 1.0 } else { 0.0 }).collect()).collect()
+}
+
+/// [`capacitance`] on an already built collocation H-matrix `h` (rows and columns = panels,
+/// `net_of[k]` the net of panel `k`): block-Jacobi GMRES for all nets in lockstep, then the
+/// adjoint-corrected entries. `timing.assemble_s` is left at 0 for the caller to fill.
+pub fn solve_compressed(
+    h: &HMatrix<f64>,
+    net_of: &[usize],
+    nets: usize,
+    gmres: &GmresOptions,
+    gmres_progress: &mut dyn FnMut(usize, usize, f64),
+) -> Result<CapacitanceResult, MomError> {
+    if h.nrows() != net_of.len() || h.ncols() != net_of.len() {
+        return Err(MomError::Input(format!(
+            "operator is {} × {} but there are {} panels",
+            h.nrows(),
+            h.ncols(),
+            net_of.len()
+        )));
+    }
+    check_nets(net_of, nets)?;
+    let rhs = excitations(net_of, nets);
     let mut timing = StageTimes::default();
-    let mut reports = Vec::new();
-    let mut summary = None;
-    // Residuals r_j = v_j − P x_j of the iterative solves (none on the dense path).
-    let mut residuals: Option<Vec<f64>> = None;
-    let charges: Vec<Vec<f64>> = if opts.dense {
-        let t = Instant::now();
-        let a = reference::assemble_dense(&src)?;
-        timing.assemble_s = t.elapsed().as_secs_f64();
-        let t = Instant::now();
-        let lu = DenseLu::factor_in_place(a)?;
-        timing.preconditioner_s = t.elapsed().as_secs_f64();
-        let t = Instant::now();
-        let mut all: Vec<f64> = rhs.concat();
-        lu.solve_in_place(&mut all)?;
-        timing.solve_s = t.elapsed().as_secs_f64();
-        all.chunks(n).map(<[f64]>::to_vec).collect()
-    } else {
-        let t = Instant::now();
-        let h = HMatrix::build_square(&src, src.centres(), &opts.hmatrix, build_progress)?;
-        timing.assemble_s = t.elapsed().as_secs_f64();
-        summary = Some(h.summary());
-        let t = Instant::now();
-        let pc = h.block_jacobi()?;
-        timing.preconditioner_s = t.elapsed().as_secs_f64();
-        let t = Instant::now();
-        // All nets in lockstep: one multi-vector H-matrix product per round serves every net.
-        let solved = solve_many(&h, &pc, &rhs, &opts.gmres, gmres_progress)?;
-        let (out, reps): (Vec<Vec<f64>>, Vec<GmresReport>) = solved.into_iter().unzip();
-        reports = reps;
-        let x: Vec<f64> = out.concat();
-        let mut px = vec![0.0; x.len()];
-        h.apply_multi(&x, &mut px, nets);
-        residuals = Some(rhs.concat().iter().zip(&px).map(|(v, p)| v - p).collect());
-        timing.solve_s = t.elapsed().as_secs_f64();
-        out
-    };
+    let t = Instant::now();
+    let pc = h.block_jacobi()?;
+    timing.preconditioner_s = t.elapsed().as_secs_f64();
+    let t = Instant::now();
+    // All nets in lockstep: one multi-vector H-matrix product per round serves every net.
+    let solved = solve_many(h, &pc, &rhs, gmres, gmres_progress)?;
+    let (charges, reports): (Vec<Vec<f64>>, Vec<GmresReport>) = solved.into_iter().unzip();
+    let x: Vec<f64> = charges.concat();
+    let mut px = vec![0.0; x.len()];
+    h.apply_multi(&x, &mut px, nets);
+    let residuals: Vec<f64> = rhs.concat().iter().zip(&px).map(|(v, p)| v - p).collect();
+    timing.solve_s = t.elapsed().as_secs_f64();
+    Ok(finish(charges, Some(&residuals), net_of, nets, reports, Some(h.summary()), timing))
+}
+
+/// [`capacitance`] by dense LU of the full collocation matrix `a` (consumed: factored in
+/// place). `timing.assemble_s` is left at 0 for the caller to fill.
+pub fn solve_dense(
+    a: DenseMatrix<f64>,
+    net_of: &[usize],
+    nets: usize,
+) -> Result<CapacitanceResult, MomError> {
+    if a.nrows() != net_of.len() || a.ncols() != net_of.len() {
+        return Err(MomError::Input(format!(
+            "matrix is {} × {} but there are {} panels",
+            a.nrows(),
+            a.ncols(),
+            net_of.len()
+        )));
+    }
+    check_nets(net_of, nets)?;
+    let n = net_of.len();
+    let mut timing = StageTimes::default();
+    let t = Instant::now();
+    let lu = DenseLu::factor_in_place(a)?;
+    timing.preconditioner_s = t.elapsed().as_secs_f64();
+    let t = Instant::now();
+    let mut all: Vec<f64> = excitations(net_of, nets).concat();
+    lu.solve_in_place(&mut all)?;
+    timing.solve_s = t.elapsed().as_secs_f64();
+    let charges = all.chunks(n).map(<[f64]>::to_vec).collect();
+    Ok(finish(charges, None, net_of, nets, Vec::new(), None, timing))
+}
+
+/// Maxwell matrix from the panel charges (adjoint-corrected with the residuals when given;
+/// see [`capacitance`]), asymmetry, and the result record.
+fn finish(
+    charges: Vec<Vec<f64>>,
+    residuals: Option<&[f64]>,
+    net_of: &[usize],
+    nets: usize,
+    gmres: Vec<GmresReport>,
+    hmatrix: Option<HSummary>,
+    timing: StageTimes,
+) -> CapacitanceResult {
+    let n = net_of.len();
     let mut maxwell = vec![vec![0.0; nets]; nets];
     for (j, q) in charges.iter().enumerate() {
         for (&k, &qk) in net_of.iter().zip(q) {
             maxwell[k][j] += qk;
         }
     }
-    // Adjoint correction (see the function docs): C_ij += x_i · r_j.
-    if let Some(r) = &residuals {
+    // Adjoint correction (see `capacitance`): C_ij += x_i · r_j.
+    if let Some(r) = residuals {
         for (i, row) in maxwell.iter_mut().enumerate() {
             for (j, c) in row.iter_mut().enumerate() {
                 *c += rafter_linalg::dense::dot(&charges[i], &r[j * n..(j + 1) * n]);
@@ -163,14 +228,14 @@ pub fn capacitance(
         .map(|(i, j)| (maxwell[i][j] - maxwell[j][i]).powi(2))
         .sum::<f64>()
         .sqrt();
-    Ok(CapacitanceResult {
+    CapacitanceResult {
         maxwell,
         asymmetry: if norm > 0.0 { asym / norm } else { 0.0 },
-        gmres: reports,
-        hmatrix: summary,
+        gmres,
+        hmatrix,
         timing,
         charges,
-    })
+    }
 }
 
 /// SPICE (branch) form of a Maxwell matrix, symmetrised as `(C + Cᵀ)/2`: returns

@@ -14,7 +14,9 @@
 pub mod capacitance;
 pub mod statics;
 
-pub use capacitance::{CapacitanceOptions, CapacitanceResult, StageTimes, capacitance, spice_form};
+pub use capacitance::{
+    CapacitanceOptions, CapacitanceResult, StageTimes, capacitance, solve_compressed, solve_dense, spice_form,
+};
 pub use statics::PanelCollocation;
 
 /// Errors of the MoM layer.
