@@ -16,8 +16,10 @@
 //!
 //! The SVG and the PNG of one figure are drawn by the same code at the same pixel size.
 //! Items smaller than a couple of pixels (the near-diagonal blocks of a large matrix, the
-//! thin edge cells of a graded mesh) are merged into 2-pixel tiles coloured by their
-//! area-weighted mean, so that a 100 000-unknown partition stays a sub-megabyte SVG.
+//! thin edge cells of a graded mesh) are merged into 2-pixel tiles — coloured by their
+//! area-weighted mean for blocks, by the value of largest magnitude for charge densities (so
+//! equal narrow peaks look equal) — so that a 100 000-unknown partition stays a sub-megabyte
+//! SVG.
 //!
 //! Every function checks its input first and returns an error that says what was wrong
 //! (empty input, mismatched lengths, non-finite values) instead of drawing nonsense.
@@ -168,15 +170,16 @@ const OUTLINE_PX: f64 = 5.0;
 struct Tiles {
     nx: usize,
     ny: usize,
-    /// Per tile: area of "special" items (dense blocks), area of valued items, Σ value·area.
-    acc: Vec<[f64; 3]>,
+    /// Per tile: area of "special" items (dense blocks), area of valued items, Σ value·area,
+    /// and the value of largest magnitude.
+    acc: Vec<[f64; 4]>,
 }
 
 impl Tiles {
     fn new(w_px: u32, h_px: u32) -> Self {
         let nx = (f64::from(w_px) / TILE_PX).ceil() as usize;
         let ny = (f64::from(h_px) / TILE_PX).ceil() as usize;
-        Self { nx, ny, acc: vec![[0.0; 3]; nx * ny] }
+        Self { nx, ny, acc: vec![[0.0; 4]; nx * ny] }
     }
 
     /// Adds an item with pixel box `[x0, x1] × [y0, y1]` and pixel area `area` (at most the
@@ -203,6 +206,9 @@ impl Tiles {
                     Some(v) => {
                         t[1] += a;
                         t[2] += a * v;
+                        if a > 0.0 && v.abs() > t[3].abs() {
+                            t[3] = v;
+                        }
                     }
                 }
             }
@@ -210,17 +216,17 @@ impl Tiles {
     }
 
     /// Pixel rectangles `(x0, y0, x1, y1)` with their colours: each tile row merged into runs
-    /// of one colour. `colour(special_area, valued_area, mean_value)` gives a tile's colour or
-    /// `None` to leave it empty.
-    fn runs(&self, colour: impl Fn(f64, f64, f64) -> Option<RGBColor>) -> Vec<([i32; 4], RGBColor)> {
+    /// of one colour. `colour(special_area, valued_area, mean_value, extreme_value)` gives a
+    /// tile's colour or `None` to leave it empty.
+    fn runs(&self, colour: impl Fn(f64, f64, f64, f64) -> Option<RGBColor>) -> Vec<([i32; 4], RGBColor)> {
         let mut out = Vec::new();
         let t = TILE_PX as i32;
         for ty in 0..self.ny {
             let mut open: Option<(usize, RGBColor)> = None;
             for tx in 0..=self.nx {
                 let c = if tx < self.nx {
-                    let [s, a, va] = self.acc[ty * self.nx + tx];
-                    if s + a > 0.0 { colour(s, a, if a > 0.0 { va / a } else { 0.0 }) } else { None }
+                    let [s, a, va, ext] = self.acc[ty * self.nx + tx];
+                    if s + a > 0.0 { colour(s, a, if a > 0.0 { va / a } else { 0.0 }, ext) } else { None }
                 } else {
                     None
                 };
@@ -466,7 +472,7 @@ impl Figure for Partition<'_> {
         }
         let dense = rgb(DENSE_BLOCK_RGB);
         for ([x0, y0, x1, y1], c) in
-            tiles.runs(|s, a, mean| Some(if s >= a { dense } else { rgb(sequential_rgb(mean)) }))
+            tiles.runs(|s, a, mean, _| Some(if s >= a { dense } else { rgb(sequential_rgb(mean)) }))
         {
             area.draw(&Rectangle::new([(x0, y0), (x1.min(w as i32), y1.min(h as i32))], c.filled()))?;
         }
@@ -538,7 +544,7 @@ impl Figure for Partition<'_> {
 /// largest |σ|.
 /// The colour bar is labelled in C/m² with a power-of-ten factor. The panel background is
 /// light grey, so cells near zero stay visible. Cells smaller than 2 pixels are merged into
-/// 2-pixel tiles coloured by their area-weighted mean density.
+/// 2-pixel tiles coloured by the density of largest magnitude among them.
 ///
 /// # Errors
 /// No cells, `density.len() != cells.len()`, a non-finite density or coordinate, a
@@ -737,8 +743,11 @@ impl<'a> Charge<'a> {
             }
         }
         // Every touched tile is drawn, so that conductors thinner than a pixel stay visible
-        // (at the price of edges up to one tile wide of bloat).
-        for ([tx0, ty0, tx1, ty1], c) in tiles.runs(|_, a, mean| (a > 0.0).then(|| colour(mean))) {
+        // (at the price of edges up to one tile wide of bloat). A tile shows the density of
+        // largest magnitude among its cells, not their mean: a narrow peak (charge induced
+        // where lines cross) then keeps its colour wherever it falls on the pixel grid, where
+        // a mean would make equal peaks look unequal.
+        for ([tx0, ty0, tx1, ty1], c) in tiles.runs(|_, a, _, ext| (a > 0.0).then(|| colour(ext))) {
             pa.draw(&Rectangle::new([(tx0, ty0), (tx1.min(w as i32), ty1.min(h as i32))], c.filled()))?;
         }
         for (shape, c) in big {

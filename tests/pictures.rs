@@ -387,8 +387,8 @@ fn charge_density_merges_sub_pixel_cells_but_keeps_them_visible() {
     assert!(rects.len() < 1000, "{} rectangles for 2001 sub-pixel cells: not merged", rects.len());
     let ends = |c: [u8; 3]| rects.iter().filter(|q| q.4 == hex(c)).map(|q| q.2 * q.3).sum::<i32>();
     let (pos, neg) = (ends(diverging_rgb(1.0)), ends(diverging_rgb(-1.0)));
-    // Left and right halves about equal in area, the thin conductor adds a strip.
-    assert!(pos > 10_000 && neg > pos, "positive area {pos} px², negative {neg} px²");
+    // Left and right halves about equal in area (the tile on the boundary takes one side).
+    assert!(pos > 10_000 && (pos - neg).abs() < pos / 20, "positive area {pos} px², negative {neg} px²");
     let thin = rects.iter().filter(|q| q.4 == hex(diverging_rgb(-1.0)) && q.2 > 300 && q.3 <= 2).count();
     assert!(thin > 0, "hair-thin conductor vanished");
 }
