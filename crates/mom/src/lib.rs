@@ -5,13 +5,16 @@
 //! `j` is the total charge on panel `j`, spread uniformly (pulse basis), and equation `i`
 //! collocates the potential at the centre of panel `i`. [`capacitance`] solves one
 //! right-hand side per net with the H-matrix engine and GMRES and returns the Maxwell
-//! capacitance matrix and its SPICE (branch) form.
+//! capacitance matrix and its SPICE (branch) form. [`edges`] enumerates the
+//! divergence-conforming current basis (rooftops, RWG) of a panel mesh, the unknowns of the
+//! coming full-wave solver.
 //!
 //! This crate knows nothing of file formats.
 
 #![warn(missing_docs)]
 
 pub mod capacitance;
+pub mod edges;
 pub mod statics;
 
 pub use capacitance::{
