@@ -16,6 +16,7 @@
 
 #![warn(missing_docs)]
 
+pub mod dynamic;
 mod hermite;
 pub mod homogeneous;
 pub mod layered;
