@@ -12,6 +12,10 @@
 //! (image series near the source, modal series far from it). Layered media plug in behind the
 //! same trait.
 //!
+//! Full wave ([`dynamic`]): panel integrals of the Helmholtz kernel `e^{−jkR}/R` by polar
+//! integration about the projected observer, singular cases included — the building block
+//! of the coming mixed-potential solver.
+//!
 //! This crate knows nothing of the H-matrix engine or of file formats.
 
 #![warn(missing_docs)]
