@@ -20,6 +20,9 @@ pub(crate) struct RawLayout {
     pub net: Vec<RawNet>,
     pub mesh: Option<RawMesh>,
     pub solve: Option<RawSolve>,
+    #[serde(default)]
+    pub port: Vec<RawPort>,
+    pub sweep: Option<RawSweep>,
 }
 
 /// `[stackup]`.
@@ -49,6 +52,10 @@ pub(crate) struct RawNet {
     pub name: Option<String>,
     #[serde(default)]
     pub shapes: Vec<RawShape>,
+    /// S/m.
+    pub conductivity: Option<f64>,
+    /// Layout units.
+    pub thickness: Option<f64>,
 }
 
 /// One entry of `net[i].shapes`: a table with exactly one of the keys `trace`, `rect`, `polygon`.
@@ -106,6 +113,29 @@ pub(crate) struct RawMesh {
 #[serde(deny_unknown_fields)]
 pub(crate) struct RawSolve {
     pub tolerance: Option<f64>,
+}
+
+/// One `[[port]]`.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub(crate) struct RawPort {
+    pub name: Option<String>,
+    pub net: Option<String>,
+    pub at: Option<RawPoint>,
+    pub to: Option<String>,
+    /// Ohms.
+    pub impedance: Option<f64>,
+}
+
+/// `[sweep]`. Frequencies in hertz; `points` is an integer so that a fractional count is a
+/// type error, and signed so that zero and negative counts get a tailored message.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub(crate) struct RawSweep {
+    pub start: Option<f64>,
+    pub stop: Option<f64>,
+    pub points: Option<i64>,
+    pub spacing: Option<String>,
 }
 
 /// Reads the raw structure, turning TOML errors into [`LayoutError::Syntax`] with the path of

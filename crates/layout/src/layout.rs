@@ -1,11 +1,14 @@
-//! The validated layout: stack-up, nets, mesh and solver options, all lengths in metres.
+//! The validated layout: stack-up, nets, mesh and solver options, ports and frequency sweep,
+//! all lengths in metres.
 
 use std::path::Path;
 
 use crate::error::{Ctx, LayoutError, MISSING, fmt_str};
 use crate::file::{self, RawLayout};
 use crate::net::{self, Net};
+use crate::port::{self, Port};
 use crate::stackup::{self, Stackup};
+use crate::sweep::{self, Sweep};
 use crate::units::{Unit, format_in_units};
 
 /// Default H-matrix relative tolerance when `[solve]` gives none.
@@ -30,6 +33,12 @@ pub struct Layout {
     pub mesh: MeshOptions,
     /// Solver options.
     pub solve: SolveOptions,
+    /// Ports for the full-wave solver, in file order (empty when the file has no `[[port]]`).
+    /// The capacitance extraction ignores them.
+    pub ports: Vec<Port>,
+    /// Frequency sweep for the full-wave solver (`None` when the file has no `[sweep]`). The
+    /// capacitance extraction ignores it.
+    pub sweep: Option<Sweep>,
 }
 
 /// How to cut the conductors into cells.
@@ -146,6 +155,8 @@ fn validate(raw: RawLayout, ctx: Ctx<'_>) -> Result<Layout, LayoutError> {
         }
         Some(t) => t,
     };
+    let ports = port::build(&raw.port, &nets, &stackup, unit, max_cell, ctx)?;
+    let sweep = sweep::build(raw.sweep.as_ref(), ctx)?;
     Ok(Layout {
         name,
         file: ctx.file.to_string(),
@@ -155,5 +166,7 @@ fn validate(raw: RawLayout, ctx: Ctx<'_>) -> Result<Layout, LayoutError> {
         nets,
         mesh: MeshOptions { max_cell, edge_refine: edge_refine.unwrap_or(true) },
         solve: SolveOptions { tolerance },
+        ports,
+        sweep,
     })
 }

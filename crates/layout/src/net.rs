@@ -5,14 +5,18 @@
 //! contours of their union. Shapes of different nets on the same face must keep a gap:
 //! touching (sharing an edge piece or a corner, up to a billionth of the face's extent) or
 //! overlapping is an error, since it would short the two nets.
+//!
+//! A net may give its metal's `conductivity` and `thickness` (both or neither): they are kept
+//! for the full-wave solver as a [`Conductor`]; without them the net is a perfect conductor of
+//! zero thickness. The electrostatic extraction ignores them.
 
 use crate::error::{Ctx, LayoutError, MISSING, fmt_str};
 use crate::file::RawNet;
-use crate::polygon::{self, perimeter, signed_area};
+use crate::polygon::{self, dist, nearest_on_segment, perimeter, signed_area};
 use crate::rect::Rect;
 use crate::shapes::{self, Face};
 use crate::stackup::Stackup;
-use crate::union::{snap_face, union, union_polygons};
+use crate::union::{rect_boundary, snap_face, union, union_polygons};
 use crate::units::Unit;
 
 /// A net: one conductor (possibly in several pieces and on several faces) at one potential.
@@ -22,6 +26,19 @@ pub struct Net {
     pub name: String,
     /// Its conductor area, one region per face, in order of first appearance in the file.
     pub regions: Vec<Region>,
+    /// The metal of the net, when the file gives its `conductivity` and `thickness`; `None`
+    /// means a perfect conductor of zero thickness. Not used by the capacitance extraction.
+    pub conductor: Option<Conductor>,
+}
+
+/// The metal of a net with finite conductivity: used by the full-wave solver for conductor
+/// loss. The conductor still sits on its face as a sheet; `thickness` only enters the loss.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Conductor {
+    /// Electrical conductivity (S/m), finite and positive (copper: about 5.8e7).
+    pub conductivity: f64,
+    /// Metal thickness (m), finite and positive.
+    pub thickness: f64,
 }
 
 /// The part of a net on one face, in metres: non-overlapping rectangles when all the net's
@@ -60,6 +77,37 @@ impl Region {
     /// outline (meshed into triangles).
     pub fn is_manhattan(&self) -> bool {
         self.outline.is_empty()
+    }
+
+    /// The region's boundary (outer edges and hole edges) as segments `[start, end]` (m): for
+    /// a Manhattan region the rectangle sides not lying against another of its rectangles
+    /// (see [`rect_boundary`]), otherwise the edges of the outline contours.
+    pub fn boundary(&self) -> Vec<[[f64; 2]; 2]> {
+        let mut segs = rect_boundary(&self.rects);
+        for c in &self.outline {
+            segs.extend((0..c.len()).map(|i| [c[i], c[(i + 1) % c.len()]]));
+        }
+        segs
+    }
+
+    /// The point of the region's [`boundary`](Region::boundary) nearest to `p` (m), and its
+    /// distance from `p` (m); `None` for an empty region.
+    pub fn nearest_boundary_point(&self, p: [f64; 2]) -> Option<([f64; 2], f64)> {
+        self.boundary()
+            .iter()
+            .map(|&[a, b]| {
+                let q = nearest_on_segment(p, a, b);
+                (q, dist(p, q))
+            })
+            .min_by(|x, y| x.1.total_cmp(&y.1))
+    }
+
+    /// Whether `p` (m) lies in the region: in one of its (closed) rectangles, or inside its
+    /// outline by the even–odd rule over all contours (so not in a hole). Points on the
+    /// boundary may go either way.
+    pub fn contains(&self, p: [f64; 2]) -> bool {
+        self.rects.iter().any(|r| r.contains(p))
+            || self.outline.iter().filter(|c| polygon::contains(c, p)).count() % 2 == 1
     }
 }
 
@@ -110,6 +158,7 @@ pub(crate) fn build(
         ));
     }
     let mut names: Vec<String> = Vec::with_capacity(raw.len());
+    let mut conductors: Vec<Option<Conductor>> = Vec::with_capacity(raw.len());
     let mut faces: Vec<Face> = Vec::new();
     // Pieces per face, in the order of `faces`.
     let mut pieces: Vec<Vec<Piece>> = Vec::new();
@@ -151,6 +200,7 @@ pub(crate) fn build(
                 "give the net at least one trace, rect or polygon, or remove it",
             ));
         }
+        conductors.push(conductor(net, i, unit, ctx)?);
         names.push(name);
         let mut mine: Vec<usize> = Vec::new();
         for (j, shape) in net.shapes.iter().enumerate() {
@@ -243,9 +293,61 @@ pub(crate) fn build(
                 outline: outline.iter().map(|c| c.iter().map(|p| [m(p[0]), m(p[1])]).collect()).collect(),
             });
         }
-        nets.push(Net { name, regions: net_regions });
+        nets.push(Net { name, regions: net_regions, conductor: conductors[i] });
     }
     Ok(nets)
+}
+
+/// The `conductivity` and `thickness` of net `i` (both or neither), thickness in metres.
+fn conductor(net: &RawNet, i: usize, unit: Unit, ctx: Ctx<'_>) -> Result<Option<Conductor>, LayoutError> {
+    let at = |key: &str| format!("net[{i}].{key}");
+    let conductivity = match net.conductivity {
+        None => None,
+        Some(s) if !(s.is_finite() && s > 0.0) => {
+            return Err(ctx.invalid(
+                at("conductivity"),
+                format!("{s}"),
+                "must be positive and finite",
+                "give the metal's conductivity in S/m (copper: about 5.8e7), or remove it and \
+                 `thickness` for a perfect conductor",
+            ));
+        }
+        Some(s) => Some(s),
+    };
+    let thickness = match net.thickness {
+        None => None,
+        Some(t) => {
+            let metres = unit.to_metres(t);
+            if !(t.is_finite() && t > 0.0 && metres.is_finite() && metres > 0.0) {
+                return Err(ctx.invalid(
+                    at("thickness"),
+                    format!("{t}"),
+                    "must be positive and finite",
+                    "give the metal thickness in the layout units (e.g. 0.035 mm for 1 oz copper), or \
+                     remove it and `conductivity` for a perfect conductor",
+                ));
+            }
+            Some((t, metres))
+        }
+    };
+    match (conductivity, thickness) {
+        (Some(conductivity), Some((_, thickness))) => Ok(Some(Conductor { conductivity, thickness })),
+        (None, None) => Ok(None),
+        (Some(s), None) => Err(ctx.invalid(
+            at("thickness"),
+            MISSING,
+            format!("the net gives conductivity = {s} but no thickness; a lossy conductor needs both"),
+            "add thickness = ... (in the layout units), or remove conductivity: without both the net \
+             is a perfect conductor of zero thickness",
+        )),
+        (None, Some((t, _))) => Err(ctx.invalid(
+            at("conductivity"),
+            MISSING,
+            format!("the net gives thickness = {t} but no conductivity; a lossy conductor needs both"),
+            "add conductivity = ... (S/m, copper: about 5.8e7), or remove thickness: without both the \
+             net is a perfect conductor of zero thickness",
+        )),
+    }
 }
 
 /// The merged part of one net on one face (layout units).

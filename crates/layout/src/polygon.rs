@@ -122,11 +122,20 @@ pub(crate) fn widened_segment(a: [f64; 2], b: [f64; 2], width: f64) -> Vec<[f64;
 
 /// Distance from point `p` to the closed segment `a–b`.
 pub(crate) fn point_segment_distance(p: [f64; 2], a: [f64; 2], b: [f64; 2]) -> f64 {
+    dist(p, nearest_on_segment(p, a, b))
+}
+
+/// The point of the closed segment `a–b` nearest to `p` (its orthogonal projection, clamped to
+/// the ends). Axis-aligned segments give their own x (or y) exactly.
+pub(crate) fn nearest_on_segment(p: [f64; 2], a: [f64; 2], b: [f64; 2]) -> [f64; 2] {
     let d = [b[0] - a[0], b[1] - a[1]];
     let len2 = d[0] * d[0] + d[1] * d[1];
     let t =
         if len2 > 0.0 { (((p[0] - a[0]) * d[0] + (p[1] - a[1]) * d[1]) / len2).clamp(0.0, 1.0) } else { 0.0 };
-    dist(p, [a[0] + t * d[0], a[1] + t * d[1]])
+    if t == 1.0 {
+        return b;
+    }
+    [a[0] + t * d[0], a[1] + t * d[1]]
 }
 
 /// Distance between the closed segments `p1–p2` and `q1–q2`: zero when they meet, otherwise

@@ -127,7 +127,7 @@ fn face(
 }
 
 /// The point written at field `at`: exactly two finite coordinates.
-fn point(raw: &RawPoint, at: &str, ctx: Ctx<'_>) -> Result<[f64; 2], LayoutError> {
+pub(crate) fn point(raw: &RawPoint, at: &str, ctx: Ctx<'_>) -> Result<[f64; 2], LayoutError> {
     let &[x, y] = raw.as_slice() else {
         return Err(ctx.invalid(
             at,

@@ -194,6 +194,69 @@ pub fn union(rects: &[Rect]) -> Vec<Rect> {
     out
 }
 
+/// The boundary of the union of non-overlapping rectangles (such as [`union`] returns), as
+/// axis-aligned segments `[start, end]`: every rectangle side minus the parts where another
+/// rectangle lies against it on the other side (its opposite side on the same line, compared
+/// exactly, as the coordinates of one region are snapped and shared). Inner boundaries (holes)
+/// are included; the segments come out in no particular order, and collinear pieces from
+/// different rectangles are not joined.
+pub fn rect_boundary(rects: &[Rect]) -> Vec<[[f64; 2]; 2]> {
+    // `+ 0.0` turns −0 into +0, so that both spellings of zero share a key.
+    let key = |v: f64| (v + 0.0).to_bits();
+    let mut by_side: [HashMap<u64, Vec<usize>>; 4] = Default::default();
+    for (i, r) in rects.iter().enumerate() {
+        for (side, v) in [r.x0, r.x1, r.y0, r.y1].into_iter().enumerate() {
+            by_side[side].entry(key(v)).or_default().push(i);
+        }
+    }
+    let mut out = Vec::new();
+    for r in rects {
+        // (line coordinate, vertical?, the side of the neighbours that would cover it, extent).
+        let sides = [
+            (r.x0, true, 1, r.y0, r.y1),
+            (r.x1, true, 0, r.y0, r.y1),
+            (r.y0, false, 3, r.x0, r.x1),
+            (r.y1, false, 2, r.x0, r.x1),
+        ];
+        for (line, vertical, opposite, lo, hi) in sides {
+            let covers: Vec<(f64, f64)> = by_side[opposite]
+                .get(&key(line))
+                .into_iter()
+                .flatten()
+                .map(|&j| {
+                    let n = &rects[j];
+                    if vertical { (n.y0, n.y1) } else { (n.x0, n.x1) }
+                })
+                .collect();
+            for (a, b) in subtract(lo, hi, covers) {
+                out.push(if vertical { [[line, a], [line, b]] } else { [[a, line], [b, line]] });
+            }
+        }
+    }
+    out
+}
+
+/// The parts of `[lo, hi]` not covered by any of the intervals `covers`, as non-empty intervals.
+fn subtract(lo: f64, hi: f64, mut covers: Vec<(f64, f64)>) -> Vec<(f64, f64)> {
+    covers.sort_by(|a, b| a.0.total_cmp(&b.0));
+    let mut out = Vec::new();
+    let mut from = lo;
+    for (a, b) in covers {
+        if a > from {
+            out.push((from, a.min(hi)));
+        }
+        from = from.max(b);
+        if from >= hi {
+            break;
+        }
+    }
+    if from < hi {
+        out.push((from, hi));
+    }
+    out.retain(|&(a, b)| a < b);
+    out
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -256,6 +319,36 @@ mod tests {
     fn simplify_drops_near_collinear_vertices() {
         let sq = vec![[0.0, 0.0], [1.0, 1e-12], [2.0, 0.0], [2.0, 2.0], [1.0, 2.0], [0.0, 2.0]];
         assert_eq!(simplify(sq, 1e-9), vec![[0.0, 0.0], [2.0, 0.0], [2.0, 2.0], [0.0, 2.0]]);
+    }
+
+    /// Total length of a set of segments.
+    fn length(segs: &[[[f64; 2]; 2]]) -> f64 {
+        segs.iter().map(|[a, b]| (b[0] - a[0]).hypot(b[1] - a[1])).sum()
+    }
+
+    #[test]
+    fn boundary_of_rectangle_unions() {
+        // A lone rectangle: its perimeter 2·(2 + 1) = 6, in four sides.
+        let one = rect_boundary(&[r(0.0, 2.0, 0.0, 1.0)]);
+        assert_eq!((one.len(), length(&one)), (4, 6.0));
+        // The L of the 3 × 1 bar and the 1 × 2 leg (two rectangles sharing the segment
+        // y = 1, x in [0, 1]): its outline has length 3 + 1 + 2 + 2 + 1 + 3 = 12, and the
+        // shared segment is not part of it.
+        let l = union(&[r(0.0, 3.0, 0.0, 1.0), r(0.0, 1.0, 0.0, 3.0)]);
+        assert_eq!(l.len(), 2);
+        let b = rect_boundary(&l);
+        assert_eq!(length(&b), 12.0);
+        assert!(b.iter().all(|[p, q]| !(p[1] == 1.0 && q[1] == 1.0 && p[0].max(q[0]) <= 1.0)), "{b:?}");
+        // A square ring (outer 3 × 3, hole 1 × 1): outer 12 plus hole 4.
+        let ring = union(&[
+            r(0.0, 3.0, 0.0, 1.0),
+            r(2.0, 3.0, 0.0, 3.0),
+            r(0.0, 3.0, 2.0, 3.0),
+            r(0.0, 1.0, 0.0, 3.0),
+        ]);
+        assert_eq!(length(&rect_boundary(&ring)), 16.0);
+        assert_eq!(subtract(0.0, 4.0, vec![(3.0, 5.0), (-1.0, 1.0)]), vec![(1.0, 3.0)]);
+        assert_eq!(subtract(0.0, 4.0, vec![(-1.0, 5.0)]), vec![]);
     }
 
     #[test]
