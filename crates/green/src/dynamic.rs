@@ -37,6 +37,20 @@ use crate::quadrature::gauss_legendre;
 use num_complex::Complex64;
 use std::sync::OnceLock;
 
+/// Speed of light in vacuum (m/s, exact by definition of the metre).
+pub const C0: f64 = 299_792_458.0;
+
+/// Wavenumber `k = ω √(μr εr (1 − j tan δ)) / c0` (1/m) of a homogeneous medium at
+/// `frequency_hz`, with the branch `Re k ≥ 0`, `Im k ≤ 0`, so that `e^{−jkR}` decays with
+/// distance in a lossy dielectric (time convention `e^{jωt}`). For small `tan δ`,
+/// `k ≈ k0 √(μr εr) (1 − j tan δ / 2)`.
+pub fn wavenumber(frequency_hz: f64, eps_r: f64, loss_tangent: f64, mu_r: f64) -> Complex64 {
+    let omega = 2.0 * std::f64::consts::PI * frequency_hz;
+    let eps = Complex64::new(eps_r, -eps_r * loss_tangent);
+    let k = (eps * mu_r).sqrt() * (omega / C0);
+    if k.re < 0.0 { -k } else { k }
+}
+
 /// Gauss–Legendre points per composite panel in `u`.
 const ORDER: usize = 8;
 /// Largest width of a composite panel in `u`.
@@ -122,6 +136,22 @@ mod tests {
 
     fn c(re: f64, im: f64) -> Complex64 {
         Complex64::new(re, im)
+    }
+
+    /// Lossless: `k = ω√(εr μr)/c0` (a 1 GHz wave in εr = 4 has a 7.49 cm wavelength, i.e.
+    /// half the vacuum one); lossy: `Im k < 0`, and the small-loss form `k0√εr (1 − j tan δ/2)`
+    /// holds to first order (the remainder is of order tan²δ/8).
+    #[test]
+    fn wavenumber_of_lossless_and_lossy_media() {
+        let k = wavenumber(1e9, 4.0, 0.0, 1.0);
+        assert!((2.0 * PI / k.re - 0.5 * C0 / 1e9).abs() < 1e-12 && k.im == 0.0);
+        let td = 0.02;
+        let k = wavenumber(2e9, 4.4, td, 1.0);
+        let k0 = 2.0 * PI * 2e9 / C0 * 4.4f64.sqrt();
+        assert!(k.im < 0.0);
+        // √(1 − jδ) = 1 − jδ/2 + δ²/8 + …: the first-order form is off by about δ²/8.
+        let err = (k - c(k0, -k0 * td / 2.0)).norm();
+        assert!(err <= 0.25 * td * td * k0 && err >= 0.05 * td * td * k0, "{k}");
     }
 
     /// `k → 0`: the closed-form `∫∫ 1/R dA` (Wilton et al. 1984) on, near and far from a
