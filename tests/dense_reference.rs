@@ -125,3 +125,34 @@ fn gmres_matches_dense_lu() {
         other => panic!("expected NotConverged, got {other:?}"),
     }
 }
+
+/// The per-block contract itself (‖A_b − H_b‖_F ≤ ε ‖A_b‖_F for every block, no margin) on a
+/// layered-media operator: the sensor-bus demo's collocation matrix (13 916 unknowns, two
+/// laminate layers over ground, ε = 10⁻⁴, Green's function to 10⁻⁷), every block compared
+/// exactly against its entries. With ACA at ε/10 one of its 8 551 blocks ended at 1.005 ε
+/// (this test failed); at ε/20 the worst is 0.90 ε.
+#[test]
+fn every_block_meets_the_tolerance_on_a_layered_operator() {
+    let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("data/sensor-bus.toml");
+    let layout = rafter::layout::load(&path).unwrap();
+    let mesh = rafter::layout::mesh(&layout).unwrap();
+    let (p, _) = rafter::extract::panels(&mesh);
+    // The Green's function as `rafter verify --tolerances …,1e-6` builds it (accuracy 10⁻⁷):
+    // the configuration in which the overshoot was seen.
+    let mut fine = layout.clone();
+    fine.solve.tolerance = 1e-6;
+    let green = rafter::extract::green_for(&fine).unwrap();
+    let src = rafter::mom::PanelCollocation::new(&p, green.as_ref());
+    let eps = layout.solve.tolerance;
+    let h =
+        HMatrix::build_square(&src, src.centres(), &HOptions { tolerance: eps, ..HOptions::default() }, None)
+            .unwrap();
+    let rep = reference::compare_blockwise(&h, &src).unwrap();
+    let over = rep.block_rel_errors.iter().filter(|&&e| e > eps).count();
+    eprintln!(
+        "{} unknowns: worst block {:.4} ε, {over} blocks over ε",
+        p.len(),
+        rep.block_max_rel_error / eps
+    );
+    assert_eq!(over, 0, "worst block {:.4} ε", rep.block_max_rel_error / eps);
+}
