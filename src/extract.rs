@@ -8,7 +8,6 @@ use rafter_layout::{CellShape, LayerKind, Layout, Mesh};
 use rafter_mom::{CapacitanceOptions, CapacitanceResult, capacitance, spice_form};
 use serde::Serialize;
 use std::fmt::Write as _;
-use std::path::Path;
 use std::time::Instant;
 
 /// Progress hooks of [`extract`].
@@ -395,9 +394,9 @@ pub fn table_text(x: &Extraction) -> String {
     s
 }
 
-/// Writes `capacitance.json`, `.csv` and `.cir` into `dir`, all or nothing.
-pub fn write_outputs(dir: &Path, x: &Extraction, pictures: &Pictures) -> anyhow::Result<()> {
-    let mut st = Staging::new(dir)?;
+/// Writes `capacitance.json`, `.csv`, `.cir` (and the requested pictures) through the staged
+/// output folder `st`, all or nothing.
+pub fn write_outputs(mut st: Staging, x: &Extraction, pictures: &Pictures) -> anyhow::Result<()> {
     st.add("capacitance.json", serde_json::to_string_pretty(x)?.as_bytes())?;
     st.add("capacitance.csv", csv_text(x).as_bytes())?;
     st.add("capacitance.cir", spice_text(x).as_bytes())?;

@@ -345,6 +345,8 @@ fn run_extract(
     let t = Instant::now();
     let layout = rafter::layout::load(path)?;
     pictures.check(&layout)?;
+    // The output folder is prepared before any work, so an unwritable one costs no solve.
+    let staging = rafter::output::Staging::new(out)?;
     let parse_s = t.elapsed().as_secs_f64();
     let bar = (!quiet).then(|| {
         let b = ProgressBar::new(0);
@@ -384,7 +386,7 @@ fn run_extract(
         b.finish_and_clear();
     }
     let x = result?;
-    rafter::extract::write_outputs(out, &x, pictures)?;
+    rafter::extract::write_outputs(staging, &x, pictures)?;
     if !quiet {
         eprint!("{}", rafter::extract::table_text(&x));
         if let Some(g) = &x.gmres {
