@@ -70,21 +70,15 @@ fn e1(z: Complex64) -> Complex64 {
     }
 }
 
-/// `∫∫_panel e^{−jkR}/R dA′` (m) at `obs` (see the module docs). `k` in 1/m; `k = 0` gives
-/// the static `∫∫ 1/R dA′`.
-pub fn helmholtz_panel_integral(obs: [f64; 3], panel: &Panel, k: Complex64) -> Complex64 {
+/// The angular sweep of the polar decomposition (see the module docs): for every quadrature
+/// node along every edge, `f(ρ_e, ê, weight)` with `ρ_e` the distance from the projected
+/// observer `p` to the edge point at that angle, `ê` the unit vector from `p` toward it, and
+/// `weight = sign(h) w du / cosh u` the signed angle element (`Σ weight = 2π` for `p` inside
+/// the panel, 0 far outside). Composite Gauss–Legendre in `u = asinh(s/|h|)`, panels of at
+/// most `MAX_DU` and about a quarter wavelength of edge each.
+fn polar_sweep(obs: [f64; 3], panel: &Panel, k: Complex64, mut f: impl FnMut(f64, [f64; 2], f64)) {
     let v = panel.vertices();
-    let d = (obs[2] - panel.z()).abs();
-    let jk = Complex64::new(0.0, 1.0) * k;
-    let phase_d = (-jk * d).exp();
-    // g(ρ) = e^{−jk|d|} (R − |d|) E(jk(R − |d|)), R − |d| = ρ²/(R + |d|).
-    let g = |rho: f64| {
-        let r = (rho * rho + d * d).sqrt();
-        let excess = rho * rho / (r + d);
-        phase_d * excess * e1(jk * excess)
-    };
     let (gx, gw) = rule();
-    let mut total = Complex64::new(0.0, 0.0);
     let n = v.len();
     for i in 0..n {
         let (a, b) = (v[i], v[(i + 1) % n]);
@@ -98,30 +92,46 @@ pub fn helmholtz_panel_integral(obs: [f64; 3], panel: &Panel, k: Complex64) -> C
         // for a counter-clockwise polygon).
         let (px, py) = (obs[0] - a[0], obs[1] - a[1]);
         let h = tx * py - ty * px;
-        // Positions of the edge's ends along it, from the foot of the perpendicular.
+        // Position of the edge's first end along it, from the foot of the perpendicular.
         let s0 = -(px * tx + py * ty);
-        let s1 = s0 + len;
         let ah = h.abs();
         if ah <= 1e-14 * len {
             // p on the edge's line: the edge subtends no angle.
             continue;
         }
-        let (u0, u1) = ((s0 / ah).asinh(), (s1 / ah).asinh());
-        // Panels: width ≤ MAX_DU in u, and about a quarter wavelength of edge each.
+        let (u0, u1) = ((s0 / ah).asinh(), ((s0 + len) / ah).asinh());
         let waves = k.norm() * len / (std::f64::consts::PI / 2.0);
         let m = (((u1 - u0) / MAX_DU).ceil().max(waves.ceil())).max(1.0) as usize;
         let du = (u1 - u0) / m as f64;
-        let mut edge = Complex64::new(0.0, 0.0);
         for j in 0..m {
             let c = u0 + (j as f64 + 0.5) * du;
             for (x, w) in gx.iter().zip(gw) {
                 let u = c + 0.5 * du * x;
                 let ch = u.cosh();
-                edge += g(ah * ch) * (w * 0.5 * du / ch);
+                let rho_e = ah * ch;
+                let s = ah * u.sinh();
+                let q = [a[0] + (s - s0) * tx, a[1] + (s - s0) * ty];
+                let dir = [(q[0] - obs[0]) / rho_e, (q[1] - obs[1]) / rho_e];
+                f(rho_e, dir, h.signum() * w * 0.5 * du / ch);
             }
         }
-        total += edge * h.signum();
     }
+}
+
+/// `∫∫_panel e^{−jkR}/R dA′` (m) at `obs` (see the module docs). `k` in 1/m; `k = 0` gives
+/// the static `∫∫ 1/R dA′`.
+pub fn helmholtz_panel_integral(obs: [f64; 3], panel: &Panel, k: Complex64) -> Complex64 {
+    let d = (obs[2] - panel.z()).abs();
+    let jk = Complex64::new(0.0, 1.0) * k;
+    let phase_d = (-jk * d).exp();
+    // g(ρ) = e^{−jk|d|} (R − |d|) E(jk(R − |d|)), R − |d| = ρ²/(R + |d|).
+    let g = |rho: f64| {
+        let r = (rho * rho + d * d).sqrt();
+        let excess = rho * rho / (r + d);
+        phase_d * excess * e1(jk * excess)
+    };
+    let mut total = Complex64::new(0.0, 0.0);
+    polar_sweep(obs, panel, k, |rho_e, _, weight| total += g(rho_e) * weight);
     // g already carries the 1/(jk) of the radial integral (inside E), so `total` is the
     // integral itself, with the static limit R − |d| built in.
     total
@@ -137,7 +147,6 @@ pub fn helmholtz_panel_integral(obs: [f64; 3], panel: &Panel, k: Complex64) -> C
 /// composite Gauss–Legendre in `ρ` (8 points per panel, panels growing geometrically from
 /// `|d|`, where it bends, and at most about a quarter wavelength).
 pub fn helmholtz_panel_moment(obs: [f64; 3], panel: &Panel, k: Complex64) -> [Complex64; 2] {
-    let v = panel.vertices();
     let d = (obs[2] - panel.z()).abs();
     let jk = Complex64::new(0.0, 1.0) * k;
     let (gx, gw) = rule();
@@ -167,42 +176,11 @@ pub fn helmholtz_panel_moment(obs: [f64; 3], panel: &Panel, k: Complex64) -> [Co
         acc
     };
     let mut total = [Complex64::new(0.0, 0.0); 2];
-    let n = v.len();
-    for i in 0..n {
-        let (a, b) = (v[i], v[(i + 1) % n]);
-        let (ex, ey) = (b[0] - a[0], b[1] - a[1]);
-        let len = (ex * ex + ey * ey).sqrt();
-        if len == 0.0 {
-            continue;
-        }
-        let (tx, ty) = (ex / len, ey / len);
-        let (px, py) = (obs[0] - a[0], obs[1] - a[1]);
-        let h = tx * py - ty * px;
-        let s0 = -(px * tx + py * ty);
-        let ah = h.abs();
-        if ah <= 1e-14 * len {
-            continue;
-        }
-        let (u0, u1) = ((s0 / ah).asinh(), ((s0 + len) / ah).asinh());
-        let waves = k.norm() * len / (std::f64::consts::PI / 2.0);
-        let m = (((u1 - u0) / MAX_DU).ceil().max(waves.ceil())).max(1.0) as usize;
-        let du = (u1 - u0) / m as f64;
-        for j in 0..m {
-            let c = u0 + (j as f64 + 0.5) * du;
-            for (x, w) in gx.iter().zip(gw) {
-                let u = c + 0.5 * du * x;
-                let ch = u.cosh();
-                let rho_e = ah * ch;
-                // Point of the edge at this angle, and the unit vector toward it from p.
-                let s = ah * u.sinh();
-                let q = [a[0] + (s - s0) * tx, a[1] + (s - s0) * ty];
-                let dir = [(q[0] - obs[0]) / rho_e, (q[1] - obs[1]) / rho_e];
-                let f = radial(rho_e) * (h.signum() * w * 0.5 * du / ch);
-                total[0] += f * dir[0];
-                total[1] += f * dir[1];
-            }
-        }
-    }
+    polar_sweep(obs, panel, k, |rho_e, dir, weight| {
+        let f = radial(rho_e) * weight;
+        total[0] += f * dir[0];
+        total[1] += f * dir[1];
+    });
     total
 }
 
