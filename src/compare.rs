@@ -60,6 +60,13 @@ pub struct SizeReport {
 /// resolves those relatively, and they are counted and reported.
 pub const RESOLVED: f64 = 1e-4;
 
+/// `|h − d| / max(|d|, RESOLVED √|d_ii d_jj|)`: the difference of a capacitance entry `h`
+/// from its reference `d`, relative to the entry itself, floored for couplings too weak to
+/// resolve relatively (`d_ii`, `d_jj` the reference self terms of its two nets).
+pub fn floored_rel_diff(h: f64, d: f64, d_ii: f64, d_jj: f64) -> f64 {
+    (h - d).abs() / d.abs().max(RESOLVED * (d_ii * d_jj).abs().sqrt())
+}
+
 /// The layout with `mesh.max_cell` scaled so that the mesh has about `target` cells.
 pub fn resized(layout: &Layout, target: usize) -> anyhow::Result<Layout> {
     let mut l = layout.clone();

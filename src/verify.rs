@@ -21,7 +21,7 @@
 //! and the solver tolerance; the dense reference uses the same one. The main comparison runs at
 //! the layout's `solve.tolerance` with the options of `rafter extract`.
 
-use crate::compare::RESOLVED;
+use crate::compare::{RESOLVED, floored_rel_diff};
 use crate::extract::{green_for, panels};
 use anyhow::{Context, bail};
 use rafter_hmatrix::{HMatrix, reference};
@@ -159,14 +159,13 @@ fn entry_diffs(layout: &Layout, ch: &[Vec<f64>], cd: &[Vec<f64>]) -> Vec<EntryDi
     for i in 0..n {
         for j in 0..n {
             let (h, d) = (ch[i][j], cd[i][j]);
-            let floor = RESOLVED * (cd[i][i] * cd[j][j]).abs().sqrt();
             out.push(EntryDiff {
                 row: layout.nets[i].name.clone(),
                 col: layout.nets[j].name.clone(),
                 compressed: h,
                 dense: d,
                 abs_diff: (h - d).abs(),
-                rel_diff: (h - d).abs() / d.abs().max(floor),
+                rel_diff: floored_rel_diff(h, d, cd[i][i], cd[j][j]),
             });
         }
     }

@@ -75,8 +75,7 @@ fn check(name: &str) {
     let mut worst = (0.0f64, 0, 0);
     for i in 0..n {
         for j in 0..n {
-            let floor = rafter::compare::RESOLVED * (d[i][i] * d[j][j]).abs().sqrt();
-            let rel = (c[i][j] - d[i][j]).abs() / d[i][j].abs().max(floor);
+            let rel = rafter::compare::floored_rel_diff(c[i][j], d[i][j], d[i][i], d[j][j]);
             if rel > worst.0 {
                 worst = (rel, i, j);
             }
