@@ -80,6 +80,9 @@ fn polar_sweep(obs: [f64; 3], panel: &Panel, k: Complex64, mut f: impl FnMut(f64
     let v = panel.vertices();
     let (gx, gw) = rule();
     let n = v.len();
+    // Signed angles assume a counter-clockwise polygon; a clockwise one flips every sign.
+    let orient: f64 =
+        (0..n).map(|i| v[i][0] * v[(i + 1) % n][1] - v[(i + 1) % n][0] * v[i][1]).sum::<f64>().signum();
     for i in 0..n {
         let (a, b) = (v[i], v[(i + 1) % n]);
         let (ex, ey) = (b[0] - a[0], b[1] - a[1]);
@@ -112,7 +115,7 @@ fn polar_sweep(obs: [f64; 3], panel: &Panel, k: Complex64, mut f: impl FnMut(f64
                 let s = ah * u.sinh();
                 let q = [a[0] + (s - s0) * tx, a[1] + (s - s0) * ty];
                 let dir = [(q[0] - obs[0]) / rho_e, (q[1] - obs[1]) / rho_e];
-                f(rho_e, dir, h.signum() * w * 0.5 * du / ch);
+                f(rho_e, dir, orient * h.signum() * w * 0.5 * du / ch);
             }
         }
     }

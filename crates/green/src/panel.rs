@@ -90,7 +90,8 @@ impl Panel {
             }
             Panel::Triangle { v, .. } => {
                 let q = [p[0], p[1]];
-                let inside = (0..3).all(|i| cross(v[i], v[(i + 1) % 3], q) >= 0.0);
+                let c: [f64; 3] = std::array::from_fn(|i| cross(v[i], v[(i + 1) % 3], q));
+                let inside = c.iter().all(|&x| x >= 0.0) || c.iter().all(|&x| x <= 0.0);
                 if inside {
                     0.0
                 } else {
@@ -168,7 +169,7 @@ pub fn inverse_distance_exact(p: [f64; 3], panel: &Panel) -> f64 {
     }
 }
 
-/// `∫∫_polygon dA′ / |p − r′|` for a convex polygon (vertices counter-clockwise) in the plane
+/// `∫∫_polygon dA′ / |p − r′|` for a convex polygon (vertices in either orientation) in the plane
 /// `z`, in closed form edge by edge (Wilton, Rao, Glisson, Schaubert, Al-Bundak, Butler,
 /// "Potential integrals for uniform and linear source distributions on polygonal and
 /// polyhedral domains", IEEE Trans. AP-32(3), 1984, eq. (5)):
@@ -183,6 +184,11 @@ pub fn inverse_distance_exact(p: [f64; 3], panel: &Panel) -> f64 {
 pub fn polygon_inverse_distance(p: [f64; 3], verts: &[[f64; 2]], z: f64) -> f64 {
     let d = (p[2] - z).abs();
     let n = verts.len();
+    // Written for counter-clockwise vertices; a clockwise polygon flips every edge's sign.
+    let orient: f64 = (0..n)
+        .map(|i| verts[i][0] * verts[(i + 1) % n][1] - verts[(i + 1) % n][0] * verts[i][1])
+        .sum::<f64>()
+        .signum();
     let mut total = 0.0;
     for i in 0..n {
         let (a, b) = (verts[i], verts[(i + 1) % n]);
@@ -211,6 +217,54 @@ pub fn polygon_inverse_distance(p: [f64; 3], verts: &[[f64; 2]], z: f64) -> f64 
             }
         }
         total += signed.signum() * term;
+    }
+    orient * total
+}
+
+/// `∫∫_panel (ρ′ − ρ) / |p − r′| dA′` (m², the two in-plane components), `ρ` the projection
+/// of `p` on the panel's plane: the first moment of the static kernel, in closed form.
+///
+/// In the plane `∇′R = (ρ′ − ρ)/R`, so by the divergence theorem the integral is the contour
+/// integral `∮ m̂ R dl` (`m̂` the outward unit normal of each edge), and along an edge at
+/// distance `R⁰ = √(P⁰² + d²)` from `p`, `∫ R dl = ½[l R + (R⁰)² ln(l + R)]` between its end
+/// points `l⁻, l⁺`:
+///
+/// `Σ_i m̂_i · ½ [ l⁺R⁺ − l⁻R⁻ + (R⁰_i)² ln((R⁺ + l⁺)/(R⁻ + l⁻)) ]`
+///
+/// (the same edge quantities as [`polygon_inverse_distance`]; Wilton, Rao, Glisson et al.,
+/// IEEE Trans. AP-32(3), 1984, give this moment for linear sources). Exact for every `p`,
+/// including points on the panel and on its edges.
+pub fn inverse_distance_moment(p: [f64; 3], panel: &Panel) -> [f64; 2] {
+    let verts = panel.vertices();
+    let d = p[2] - panel.z();
+    let n = verts.len();
+    // Orientation: the outward normal of a counter-clockwise polygon is (ly, −lx).
+    let twice_area: f64 =
+        (0..n).map(|i| verts[i][0] * verts[(i + 1) % n][1] - verts[(i + 1) % n][0] * verts[i][1]).sum();
+    let orient = twice_area.signum();
+    let mut total = [0.0; 2];
+    for i in 0..n {
+        let (a, b) = (verts[i], verts[(i + 1) % n]);
+        let (ex, ey) = (b[0] - a[0], b[1] - a[1]);
+        let len = (ex * ex + ey * ey).sqrt();
+        if len == 0.0 {
+            continue;
+        }
+        let (lx, ly) = (ex / len, ey / len);
+        let (mx, my) = (orient * ly, -orient * lx);
+        let (ax, ay) = (a[0] - p[0], a[1] - p[1]);
+        let (bx, by) = (b[0] - p[0], b[1] - p[1]);
+        let p0 = ax * mx + ay * my;
+        let (lm, lp) = (ax * lx + ay * ly, bx * lx + by * ly);
+        let r0sq = p0 * p0 + d * d;
+        let (rm, rp) = ((lm * lm + r0sq).sqrt(), (lp * lp + r0sq).sqrt());
+        let mut term = lp * rp - lm * rm;
+        if r0sq > 0.0 {
+            let rl = |r: f64, l: f64| if l >= 0.0 { r + l } else { r0sq / (r - l) };
+            term += r0sq * (rl(rp, lp) / rl(rm, lm)).ln();
+        }
+        total[0] += 0.5 * term * mx;
+        total[1] += 0.5 * term * my;
     }
     total
 }
@@ -343,6 +397,55 @@ mod tests {
                         let exact = inverse_distance_exact(obs, &t);
                         let got = inverse_distance(obs, &t, acc);
                         assert!((got - exact).abs() <= (acc + 1e-12) * exact, "acc {acc:e} r {r}");
+                    }
+                }
+            }
+        }
+    }
+
+    /// The closed-form moment `∫∫ (ρ′ − ρ)/R` against two independent computations: the polar
+    /// sweep of `dynamic::helmholtz_panel_moment` at `k = 0` (on the panel, on its edges, at a
+    /// vertex, near and off it) and a fine subdivided Gauss rule (off the panel).
+    #[test]
+    fn first_moment_matches_polar_sweep_and_quadrature() {
+        let panels = [
+            Panel::Rect { x0: 0.1, x1: 0.5, y0: -0.2, y1: 0.05, z: 0.3 },
+            Panel::Triangle { v: [[0.0, 0.0], [0.4, 0.1], [0.1, 0.3]], z: -0.1 },
+            Panel::Triangle { v: [[0.0, 0.0], [0.1, 0.3], [0.4, 0.1]], z: 0.0 },
+        ];
+        for p in &panels {
+            let c = p.center();
+            let v = p.vertices();
+            let on_edge = [0.5 * (v[0][0] + v[1][0]), 0.5 * (v[0][1] + v[1][1]), p.z()];
+            for obs in [
+                c,
+                on_edge,
+                [v[1][0], v[1][1], p.z()],
+                [c[0] + 0.07, c[1] - 0.03, p.z() + 0.02],
+                [0.9, 0.4, p.z()],
+                [-0.3, 0.2, p.z() + 0.5],
+            ] {
+                let closed = inverse_distance_moment(obs, p);
+                let polar =
+                    crate::dynamic::helmholtz_panel_moment(obs, p, num_complex::Complex64::new(0.0, 0.0));
+                let scale = p.area() * p.max_side();
+                for i in 0..2 {
+                    assert!(
+                        (closed[i] - polar[i].re).abs() < 1e-9 * scale,
+                        "{obs:?} {i}: {} vs {}",
+                        closed[i],
+                        polar[i].re
+                    );
+                }
+                if p.distance(obs) > 0.05 {
+                    for (i, closed) in closed.iter().enumerate() {
+                        let fine = quadrature::panel_rule_subdivided(p, 64, 6, |q| {
+                            let r =
+                                ((obs[0] - q[0]).powi(2) + (obs[1] - q[1]).powi(2) + (obs[2] - q[2]).powi(2))
+                                    .sqrt();
+                            (q[i] - obs[i]) / r
+                        });
+                        assert!((closed - fine).abs() < 1e-10 * scale, "{obs:?} {i}: {closed} vs {fine}");
                     }
                 }
             }

@@ -100,6 +100,38 @@ pub fn panel_rule(panel: &Panel, nx: usize, ny: usize, f: impl Fn([f64; 3]) -> f
     }
 }
 
+/// The nodes and weights of [`panel_rule`] (`nx × ny` points; weights sum to the panel's area),
+/// appended to `out` as `(point, weight)`: for callers that integrate several functions, or
+/// complex ones, on the same points. Orders are clamped to `1..=MAX_ORDER`.
+pub fn panel_points(panel: &Panel, nx: usize, ny: usize, out: &mut Vec<([f64; 3], f64)>) {
+    let (gx, wx) = cached(nx.clamp(1, MAX_ORDER));
+    let (gy, wy) = cached(ny.clamp(1, MAX_ORDER));
+    match *panel {
+        Panel::Rect { x0, x1, y0, y1, z } => {
+            let (cx, hx) = (0.5 * (x0 + x1), 0.5 * (x1 - x0));
+            let (cy, hy) = (0.5 * (y0 + y1), 0.5 * (y1 - y0));
+            for (xi, wi) in gx.iter().zip(wx) {
+                for (yj, wj) in gy.iter().zip(wy) {
+                    out.push(([cx + hx * xi, cy + hy * yj, z], wi * wj * hx * hy));
+                }
+            }
+        }
+        Panel::Triangle { v, z } => {
+            let area = panel.area();
+            let (a, b, c) = (v[0], v[1], v[2]);
+            for (ui, wi) in gx.iter().zip(wx) {
+                let u = 0.5 * (ui + 1.0);
+                for (vj, wj) in gy.iter().zip(wy) {
+                    let t = 0.5 * (vj + 1.0);
+                    let x = a[0] + u * ((b[0] - a[0]) + t * (c[0] - b[0]));
+                    let y = a[1] + u * ((b[1] - a[1]) + t * (c[1] - b[1]));
+                    out.push(([x, y, z], 0.5 * wi * wj * u * area));
+                }
+            }
+        }
+    }
+}
+
 /// `(1/|T|) ∫∫_T f dA` by the collapsed rule on nodes/weights of `[−1, 1]`.
 fn triangle_rule(
     v: [[f64; 2]; 3],
