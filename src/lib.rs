@@ -25,6 +25,7 @@ pub mod extract;
 pub mod lines;
 pub mod output;
 pub mod pictures;
+pub mod sweep;
 pub mod verify;
 
 pub use rafter_cluster as cluster;

@@ -143,7 +143,7 @@ pub enum EdgeError {
 }
 
 /// The edges of a panel, each with the support of an edge function on that panel.
-fn panel_edges(p: &Panel) -> Vec<([[f64; 2]; 2], Side)> {
+pub(crate) fn panel_edges(p: &Panel) -> Vec<([[f64; 2]; 2], Side)> {
     match *p {
         Panel::Triangle { v, .. } => {
             (0..3).map(|i| ([v[(i + 1) % 3], v[(i + 2) % 3]], Side::Triangle { free: v[i] })).collect()

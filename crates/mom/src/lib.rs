@@ -14,8 +14,12 @@
 #![warn(missing_docs)]
 
 pub mod capacitance;
+pub mod current;
 pub mod edges;
+pub mod mpie;
+pub mod projector;
 pub mod statics;
+pub mod wave;
 
 pub use capacitance::{
     CapacitanceOptions, CapacitanceResult, StageTimes, capacitance, solve_compressed, solve_dense, spice_form,
