@@ -26,11 +26,13 @@ pub mod homogeneous;
 pub mod layered;
 mod modal;
 pub mod panel;
+pub mod parallel_plate;
 pub mod quadrature;
 
 pub use homogeneous::{FreeSpace, GroundBelow, TwoGrounds};
 pub use layered::{LayerSpec, LayeredGreen};
 pub use panel::Panel;
+pub use parallel_plate::{ParallelPlate, ParallelPlateError, PlatePair};
 
 /// Vacuum permittivity ε0 in F/m (CODATA 2022).
 pub const EPS0: f64 = 8.854_187_818_8e-12;
