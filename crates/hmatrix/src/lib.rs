@@ -7,6 +7,11 @@
 //! low-rank form would not be smaller. The dense `N × N` matrix is never formed; only
 //! [`reference`] (the explicit, memory-checked dense path) does that, for verification.
 //!
+//! [`HMatrix::build_symmetric`] does the same for a symmetric source (`A = Aᵀ`, real or complex
+//! symmetric) on one point set, computing and storing only the blocks on and above the block
+//! diagonal and applying the others as their transposes: about half the entries and storage,
+//! and an operator that is exactly symmetric.
+//!
 //! Modules, one concept each: [`options`] (tolerance, η, leaf size), [`hmatrix`] (the type, its
 //! build and its matvecs), [`stats`] (per-block statistics and totals), [`reference`] (dense
 //! assembly, memory estimates, exact error of every block).

@@ -64,11 +64,16 @@ pub fn assemble_dense<T: Scalar, S: EntrySource<T> + ?Sized>(src: &S) -> Result<
 }
 
 /// Exact errors of an H-matrix against the dense matrix of the same source.
+///
+/// For a symmetric H-matrix only the stored blocks are compared: a mirror `Bᵀ` at `cols × rows`
+/// has exactly the error of its stored block `B`, as the source is symmetric by the
+/// precondition of [`HMatrix::build_symmetric`]; the whole-matrix figure counts each stored
+/// off-diagonal block twice (its own place and its mirror's), both in the error and in the norm.
 #[derive(Clone, Debug, Serialize)]
 pub struct ErrorReport {
     /// `‖A − H‖_F / ‖A‖_F` over the whole matrix.
     pub rel_error: f64,
-    /// `‖A_b − H_b‖_F / ‖A_b‖_F` for every leaf block `b`, in [`HMatrix::blocks`] order
+    /// `‖A_b − H_b‖_F / ‖A_b‖_F` for every stored leaf block `b`, in [`HMatrix::blocks`] order
     /// (0 for a zero block stored exactly).
     pub block_rel_errors: Vec<f64>,
     /// Largest entry of `block_rel_errors`.
@@ -130,7 +135,11 @@ fn block_errors<T: Scalar>(
                 .fold((0.0, 0.0), |(e, n), (&x, &y)| (e + (x - y).abs2(), n + x.abs2()))
         })
         .collect();
-    let (err2, norm2) = per_block.iter().fold((0.0, 0.0), |(e, n), &(a, b)| (e + a, n + b));
+    // A symmetric H-matrix's stored off-diagonal blocks stand for their mirrors too.
+    let (err2, norm2) = per_block.iter().zip(h.blocks()).fold((0.0, 0.0), |(e, n), (&(a, b), blk)| {
+        let w = if h.is_symmetric() && blk.rows != blk.cols { 2.0 } else { 1.0 };
+        (e + w * a, n + w * b)
+    });
     let block_rel_errors: Vec<f64> = per_block
         .iter()
         .map(|&(e, n)| {
