@@ -15,6 +15,7 @@
 
 pub mod capacitance;
 pub mod edges;
+pub mod network;
 pub mod statics;
 
 pub use capacitance::{
