@@ -89,7 +89,7 @@ static DIVERGING: LazyLock<DerivedColorMap<RGBColor>> = LazyLock::new(|| {
 // ---------------------------------------------------------------------------------------------
 
 /// Font family name under which the bundled font is registered.
-const FONT: &str = "sans-serif";
+pub const FONT: &str = "sans-serif";
 
 /// DejaVu Sans (Bitstream Vera licence, see `assets/fonts/LICENSE-DejaVu.txt`).
 static FONT_BYTES: &[u8] = include_bytes!("../assets/fonts/DejaVuSans.ttf");
@@ -104,7 +104,7 @@ fn ensure_font() -> Result<()> {
 }
 
 /// A figure that can draw itself on any plotters backend.
-trait Figure {
+pub trait Figure {
     /// Canvas size in pixels.
     fn size(&self) -> (u32, u32);
     /// Draws the whole figure on `root` (the full canvas).
@@ -114,7 +114,7 @@ trait Figure {
 }
 
 /// Draws `fig` as SVG and as PNG.
-fn render(fig: &impl Figure, what: &str) -> Result<Rendered> {
+pub fn render(fig: &impl Figure, what: &str) -> Result<Rendered> {
     ensure_font()?;
     let (w, h) = fig.size();
     let mut svg = String::new();

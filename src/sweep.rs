@@ -13,7 +13,7 @@ use rafter_green::dynamic::{C0, wavenumber};
 use rafter_layout::{LayerKind, Layout, PortReference};
 use rafter_mom::current::{CurrentBasis, FeedReturn, FeedSpec, current_basis};
 use rafter_mom::edges::edge_basis;
-use rafter_mom::mpie::{ImageGreen, Planes, WaveGreen};
+use rafter_mom::mpie::{ImageGreen, Planes, PlateGreen, WaveGreen};
 
 use crate::extract::panels;
 
@@ -71,14 +71,18 @@ impl Medium {
         (Complex64::new(MU0, 0.0) / eps).sqrt()
     }
 
-    /// The Green's function at `f`.
-    pub fn green(&self, f: f64) -> Result<Box<dyn WaveGreen>> {
+    /// The Green's function at `f` for conductors at `heights` (m) spread over `extent` (m),
+    /// tables (two grounds) to relative accuracy `tol`.
+    pub fn green(&self, f: f64, heights: &[f64], extent: f64, tol: f64) -> Result<Box<dyn WaveGreen>> {
         let k = self.k(f);
         Ok(match self.grounds {
             (None, None) => Box::new(ImageGreen { k, planes: Planes::Open }),
             (Some(z), None) => Box::new(ImageGreen { k, planes: Planes::Below(z) }),
             (None, Some(_)) => bail!("a ground above with none below is not supported; flip the stack-up"),
-            (Some(_), Some(_)) => bail!("two grounds (stripline) are not supported by the full-wave solver yet"),
+            (Some(z0), Some(z1)) => Box::new(
+                PlateGreen::new(k, z0, z1, heights, 1.01 * extent + 1e-9, tol)
+                    .with_context(|| format!("the stripline Green's function at {f:.6e} Hz"))?,
+            ),
         })
     }
 }
@@ -93,6 +97,17 @@ pub struct WaveSetup {
     pub basis: CurrentBasis,
     /// Medium.
     pub medium: Medium,
+    /// Distinct conductor heights (m).
+    pub heights: Vec<f64>,
+    /// Diagonal of the conductors' bounding box (m).
+    pub extent: f64,
+}
+
+impl WaveSetup {
+    /// The Green's function at `f` (tables to `tol`).
+    pub fn green(&self, f: f64, tol: f64) -> Result<Box<dyn WaveGreen>> {
+        self.medium.green(f, &self.heights, self.extent, tol)
+    }
 }
 
 /// Meshes `layout` and builds its full-wave basis.
@@ -121,5 +136,18 @@ pub fn setup(layout: &Layout) -> Result<WaveSetup> {
         })
         .collect();
     let basis = current_basis(&panels, &net_of, &edges, &feeds).with_context(|| format!("{}: ports", layout.file))?;
-    Ok(WaveSetup { panels, net_of, basis, medium })
+    let mut heights: Vec<f64> = panels.iter().map(Panel::z).collect();
+    heights.sort_by(f64::total_cmp);
+    heights.dedup();
+    let (mut lo, mut hi) = ([f64::INFINITY; 2], [f64::NEG_INFINITY; 2]);
+    for p in &panels {
+        for v in p.vertices() {
+            for a in 0..2 {
+                lo[a] = lo[a].min(v[a]);
+                hi[a] = hi[a].max(v[a]);
+            }
+        }
+    }
+    let extent = (hi[0] - lo[0]).hypot(hi[1] - lo[1]);
+    Ok(WaveSetup { panels, net_of, basis, medium, heights, extent })
 }

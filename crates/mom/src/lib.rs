@@ -17,6 +17,7 @@ pub mod capacitance;
 pub mod current;
 pub mod edges;
 pub mod mpie;
+pub mod network;
 pub mod projector;
 pub mod statics;
 pub mod wave;

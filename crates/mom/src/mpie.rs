@@ -110,6 +110,74 @@ impl WaveGreen for ImageGreen {
     }
 }
 
+/// `G` between two perfectly conducting planes `z0 < z1` filled with one medium (stripline):
+/// the kernel of [`rafter_green::parallel_plate`], tabulated per pair of conductor heights.
+/// The three copies whose `1/R` reaches a conductor face are the direct term and the nearest
+/// image in each plane; the rest is smooth.
+pub struct PlateGreen {
+    k: C,
+    z0: f64,
+    z1: f64,
+    plate: rafter_green::ParallelPlate,
+    /// `(z, z′)` in the plates' frame and their tables.
+    pairs: Vec<((f64, f64), rafter_green::PlatePair)>,
+}
+
+impl PlateGreen {
+    /// Tables for every pair of `heights` (absolute, m) out to `rho_max` (m) at relative
+    /// accuracy `tol`.
+    pub fn new(
+        k: C,
+        z0: f64,
+        z1: f64,
+        heights: &[f64],
+        rho_max: f64,
+        tol: f64,
+    ) -> Result<Self, rafter_green::ParallelPlateError> {
+        let plate = rafter_green::ParallelPlate::new(z1 - z0, k)?;
+        let mut pairs = Vec::new();
+        for &a in heights {
+            for &b in heights {
+                let key = (a - z0, b - z0);
+                if !pairs.iter().any(|(k, _)| *k == key) {
+                    pairs.push((key, rafter_green::PlatePair::new(&plate, key.0, key.1, rho_max, tol)?));
+                }
+            }
+        }
+        Ok(Self { k, z0, z1, plate, pairs })
+    }
+
+    fn pair(&self, z: f64, zp: f64) -> Option<&rafter_green::PlatePair> {
+        let key = (z - self.z0, zp - self.z0);
+        self.pairs.iter().find(|(k, _)| *k == key).map(|(_, t)| t)
+    }
+}
+
+impl WaveGreen for PlateGreen {
+    fn k(&self) -> C {
+        self.k
+    }
+    fn copies(&self, _z_obs: f64, z_src: f64) -> ([(f64, f64); 3], usize) {
+        ([(1.0, z_src), (-1.0, 2.0 * self.z0 - z_src), (-1.0, 2.0 * self.z1 - z_src)], 3)
+    }
+    fn smooth(&self, rho: f64, z_obs: f64, z_src: f64) -> Option<C> {
+        Some(match self.pair(z_obs, z_src) {
+            Some(t) if rho <= t.smooth_range() => t.smooth(rho),
+            _ => self.plate.smooth(rho, z_obs - self.z0, z_src - self.z0),
+        })
+    }
+    fn total(&self, r: [f64; 3], rs: [f64; 3]) -> C {
+        let rho = (r[0] - rs[0]).hypot(r[1] - rs[1]);
+        match self.pair(r[2], rs[2]) {
+            Some(t) if rho >= t.total_range().0 && rho <= t.total_range().1 => t.total(rho),
+            Some(t) if rho < t.total_range().0 => {
+                t.smooth(rho) + self.plate.singular_terms(rho, r[2] - self.z0, rs[2] - self.z0)
+            }
+            _ => self.plate.total(rho, r[2] - self.z0, rs[2] - self.z0),
+        }
+    }
+}
+
 /// The nine moments of one panel pair `(p, q)`: `∫_p ∫_q w(r, r′) G dA′ dA` for
 /// `w = 1` (`k00`), `(r − c_p)` (`k10`), `(r′ − c_q)` (`k01`), `(r − c_p)(r′ − c_q)ᵀ` (`k11`,
 /// row `a` = component of `r − c_p`).

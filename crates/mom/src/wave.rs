@@ -156,14 +156,14 @@ impl<'a> WaveProblem<'a> {
     ) -> Result<FrequencyResult, MomError> {
         let t0 = Instant::now();
         let k = green.k();
-        let inter = Interactions::new(self.panels, green, 0.1 * opts.hmatrix.tolerance);
+        let inter = Interactions::new(self.panels, green, opts.hmatrix.tolerance);
         let asrc = VectorPotential::new(&inter, self.basis);
         let psrc = ScalarPotential::new(&inter);
         let ell = balance_length(&asrc, &psrc, self.basis);
         progress("vector potential");
-        let a = HMatrix::build_square(&asrc, &self.function_points, &opts.hmatrix, None)?;
+        let a = HMatrix::build_symmetric(&asrc, &self.function_points, &opts.hmatrix, None)?;
         progress("scalar potential");
-        let p = HMatrix::build_square(&psrc, &self.panel_points, &opts.hmatrix, None)?;
+        let p = HMatrix::build_symmetric(&psrc, &self.panel_points, &opts.hmatrix, None)?;
         let t_build = t0.elapsed().as_secs_f64();
         progress("solve");
         let alpha = (k * ell).sqrt();
