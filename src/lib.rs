@@ -25,7 +25,9 @@ pub mod extract;
 pub mod lines;
 pub mod output;
 pub mod pictures;
+pub mod sparams_plot;
 pub mod sweep;
+pub mod touchstone;
 pub mod verify;
 
 pub use rafter_cluster as cluster;

@@ -38,6 +38,15 @@ enum Command {
         #[arg(short, long)]
         out: PathBuf,
     },
+    /// Full-wave frequency sweep of the layout's ports ([[port]], [sweep]): writes
+    /// NAME.sNp (Touchstone 1.1), sweep.json and sparams.svg/.png.
+    Sweep {
+        /// The layout file.
+        layout: PathBuf,
+        /// Output folder (created if missing; written all or nothing).
+        #[arg(short, long)]
+        out: PathBuf,
+    },
     /// Extract the capacitance matrix of a layout (TOML); writes capacitance.json, .csv and .cir.
     Extract {
         /// The layout file.
@@ -137,6 +146,7 @@ fn run(cli: Cli) -> anyhow::Result<()> {
             };
             run_extract(&layout, &out, dense, &pictures, cli.quiet)
         }
+        Command::Sweep { layout, out } => run_sweep(&layout, &out, cli.quiet),
         Command::Verify { layout, out, tolerances, max_error, vectors } => {
             run_verify(&layout, out.as_deref(), tolerances.as_deref(), max_error, vectors, cli.quiet)
         }
@@ -401,6 +411,61 @@ fn run_extract(
             );
         }
         eprintln!("wrote {}/capacitance.{{json,csv,cir}} in {:.2} s", out.display(), x.timing.total_s);
+    }
+    Ok(())
+}
+
+fn run_sweep(path: &std::path::Path, out: &std::path::Path, quiet: bool) -> anyhow::Result<()> {
+    let t = Instant::now();
+    let layout = rafter::layout::load(path)?;
+    if layout.sweep.is_none() || layout.ports.is_empty() {
+        anyhow::bail!(
+            "{}: `rafter sweep` needs at least one [[port]] and a [sweep] table\n  hint: see docs/layout-format.md",
+            layout.file
+        );
+    }
+    let staging = rafter::output::Staging::new(out)?;
+    let bar = (!quiet).then(|| {
+        let b = ProgressBar::new(0);
+        b.set_style(
+            ProgressStyle::with_template("{msg} [{bar:40}] {pos}/{len} frequencies ({elapsed}, eta {eta})")
+                .expect("static template")
+                .progress_chars("=> "),
+        );
+        b
+    });
+    let mut progress = |done: usize, total: usize, msg: &str| {
+        if let Some(b) = &bar {
+            b.set_length(total as u64);
+            b.set_position(done as u64);
+            b.set_message(msg.to_string());
+        }
+    };
+    let run = rafter::sweep::run(&layout, &mut progress);
+    if let Some(b) = &bar {
+        b.finish_and_clear();
+    }
+    let run = run?;
+    let file = rafter::sweep::write_outputs(staging, &layout, &run)?;
+    if !quiet {
+        eprint!("{}", rafter::sweep::table_text(&run));
+        eprintln!(
+            "wrote {dir}/{file}, {dir}/sweep.json and {dir}/sparams.{{svg,png}} in {:.2} s",
+            t.elapsed().as_secs_f64(),
+            dir = out.display()
+        );
+    }
+    for p in &run.points {
+        for w in &p.warnings {
+            eprintln!("warning: {w}");
+        }
+    }
+    if let Some((f, e)) = &run.failure {
+        anyhow::bail!(
+            "the sweep stopped at {f:.6e} Hz: {e}\n  ({} frequencies before it are in {})",
+            run.points.len(),
+            out.display()
+        );
     }
     Ok(())
 }

@@ -1,6 +1,6 @@
 //! The S-parameter figure of a frequency sweep: magnitude in dB and phase in degrees against
 //! frequency, one curve per matrix entry of the lower triangle, as SVG and PNG (drawn by the
-//! machinery of [`rafter::pictures`]).
+//! machinery of [`crate::pictures`]).
 
 use anyhow::{Result, bail, ensure};
 use plotters::coord::Shift;
@@ -8,8 +8,8 @@ use plotters::coord::ranged1d::{KeyPointHint, KeyPointWeight, NoDefaultFormattin
 use plotters::coord::types::RangedCoordf64;
 use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
-use rafter::linalg::{Complex64, DenseMatrix};
-use rafter::pictures::{FONT, Figure, Rendered, render};
+use crate::linalg::{Complex64, DenseMatrix};
+use crate::pictures::{FONT, Figure, Rendered, render};
 
 /// Lowest magnitude drawn (dB): `20 log10 |S|` is clamped here, so exact zeros stay on the
 /// axis.

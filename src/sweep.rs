@@ -16,6 +16,12 @@ use rafter_mom::edges::edge_basis;
 use rafter_mom::mpie::{ImageGreen, Planes, PlateGreen, WaveGreen};
 
 use crate::extract::panels;
+use crate::output::Staging;
+use crate::{sparams_plot, touchstone};
+use rafter_linalg::DenseMatrix;
+use rafter_mom::network;
+use rafter_mom::wave::{FrequencyResult, WaveOptions, WaveProblem};
+use std::time::Instant;
 
 /// Vacuum permeability μ0 (H/m, CODATA 2022).
 pub const MU0: f64 = 1.256_637_061_27e-6;
@@ -150,4 +156,232 @@ pub fn setup(layout: &Layout) -> Result<WaveSetup> {
     }
     let extent = (hi[0] - lo[0]).hypot(hi[1] - lo[1]);
     Ok(WaveSetup { panels, net_of, basis, medium, heights, extent })
+}
+
+/// Largest relative asymmetry `‖S − Sᵀ‖_F/‖S‖_F` accepted as reciprocal.
+pub const RECIPROCITY_LIMIT: f64 = 1e-6;
+/// Largest singular value of `S` accepted as passive: `1 + PASSIVITY_MARGIN`.
+pub const PASSIVITY_MARGIN: f64 = 1e-6;
+
+/// One solved frequency.
+#[derive(Clone, Debug)]
+pub struct SweepPoint {
+    /// Frequency (Hz).
+    pub frequency_hz: f64,
+    /// Admittance matrix (S).
+    pub y: DenseMatrix<Complex64>,
+    /// Impedance matrix (Ω); `None` where `Y` is singular.
+    pub z: Option<DenseMatrix<Complex64>>,
+    /// Scattering matrix (power waves, each port's own reference impedance).
+    pub s: DenseMatrix<Complex64>,
+    /// The solve's figures.
+    pub solve: FrequencyResult,
+    /// `‖S − Sᵀ‖_F / ‖S‖_F`.
+    pub reciprocity_error: f64,
+    /// Largest singular value of `S`.
+    pub largest_singular_value: f64,
+    /// Warnings (reciprocity or passivity violated).
+    pub warnings: Vec<String>,
+}
+
+/// A sweep: the frequencies solved, and the failure that stopped it, if any.
+pub struct SweepRun {
+    /// Port names, in file order.
+    pub ports: Vec<String>,
+    /// Reference impedance per port (Ω).
+    pub impedances: Vec<f64>,
+    /// Solved frequencies, in order.
+    pub points: Vec<SweepPoint>,
+    /// `(frequency, error)` of the frequency that failed (the sweep stops there).
+    pub failure: Option<(f64, String)>,
+    /// Unknowns and panels.
+    pub unknowns: usize,
+    /// Seconds spent on the frequency-independent setup (mesh, basis, projector).
+    pub setup_s: f64,
+    /// Medium, as a sentence.
+    pub medium: String,
+}
+
+/// Runs the sweep of `layout` (which must have a `[sweep]`). Errors in the setup are returned;
+/// an error at one frequency stops the sweep and is recorded in [`SweepRun::failure`], keeping
+/// the frequencies already solved. `progress(done, total, message)` follows the sweep.
+pub fn run(layout: &Layout, progress: &mut dyn FnMut(usize, usize, &str)) -> Result<SweepRun> {
+    let t0 = Instant::now();
+    let Some(sweep) = &layout.sweep else {
+        bail!(
+            "{}: no [sweep] table\n  hint: add [sweep] with start, stop (Hz), points and spacing = \"linear\" | \"log\"",
+            layout.file
+        );
+    };
+    let freqs = sweep.frequencies();
+    progress(0, freqs.len(), "meshing and preparing the current basis");
+    let setup = setup(layout)?;
+    let problem = WaveProblem::new(&setup.panels, &setup.basis).with_context(|| layout.file.clone())?;
+    let setup_s = t0.elapsed().as_secs_f64();
+    let tol = layout.solve.tolerance;
+    let opts = WaveOptions::with_tolerance(tol);
+    let impedances: Vec<f64> = layout.ports.iter().map(|p| p.impedance).collect();
+    let mut run = SweepRun {
+        ports: layout.ports.iter().map(|p| p.name.clone()).collect(),
+        impedances: impedances.clone(),
+        points: Vec::new(),
+        failure: None,
+        unknowns: problem.unknowns(),
+        setup_s,
+        medium: setup.medium.describe(),
+    };
+    for (i, &f) in freqs.iter().enumerate() {
+        progress(i, freqs.len(), &format!("{f:.4e} Hz"));
+        let point = (|| -> Result<SweepPoint> {
+            let green = setup.green(f, 0.1 * tol)?;
+            let solve = problem.solve(f, green.as_ref(), setup.medium.eta(), &opts, &mut |_| {})?;
+            let s = network::s_from_y(&solve.y, &impedances)?;
+            let z = network::z_from_y(&solve.y).ok();
+            let reciprocity_error = network::reciprocity_error(&s);
+            let largest_singular_value = network::largest_singular_value(&s);
+            let mut warnings = Vec::new();
+            if reciprocity_error > RECIPROCITY_LIMIT {
+                warnings.push(format!(
+                    "not reciprocal at {f:.6e} Hz: ‖S − Sᵀ‖/‖S‖ = {reciprocity_error:.2e} > {RECIPROCITY_LIMIT:e}"
+                ));
+            }
+            if largest_singular_value > 1.0 + PASSIVITY_MARGIN {
+                warnings.push(format!(
+                    "not passive at {f:.6e} Hz: largest singular value of S = {largest_singular_value:.9} > 1 + \
+                     {PASSIVITY_MARGIN:e}"
+                ));
+            }
+            Ok(SweepPoint { frequency_hz: f, y: solve.y.clone(), z, s, solve, reciprocity_error, largest_singular_value, warnings })
+        })();
+        match point {
+            Ok(p) => run.points.push(p),
+            Err(e) => {
+                run.failure = Some((f, format!("{e:#}")));
+                break;
+            }
+        }
+    }
+    progress(run.points.len(), freqs.len(), "done");
+    Ok(run)
+}
+
+impl Medium {
+    /// A sentence naming the medium.
+    pub fn describe(&self) -> String {
+        let grounds = match self.grounds {
+            (None, None) => "no ground plane".to_string(),
+            (Some(z), None) => format!("a ground plane at z = {z:.6e} m"),
+            (Some(a), Some(b)) => format!("ground planes at z = {a:.6e} and {b:.6e} m"),
+            (None, Some(b)) => format!("a ground plane above at z = {b:.6e} m"),
+        };
+        format!("homogeneous, eps_r = {}, loss tangent = {}, {grounds}", self.eps_r, self.loss_tangent)
+    }
+}
+
+fn pairs(m: &DenseMatrix<Complex64>) -> Vec<Vec<[f64; 2]>> {
+    (0..m.nrows()).map(|i| (0..m.ncols()).map(|j| [m.get(i, j).re, m.get(i, j).im]).collect()).collect()
+}
+
+/// `sweep.json` of a run.
+pub fn json(layout: &Layout, run: &SweepRun) -> serde_json::Value {
+    let pts = &run.points;
+    serde_json::json!({
+        "layout": layout.name,
+        "file": layout.file,
+        "medium": run.medium,
+        "ports": run.ports,
+        "impedances_ohm": run.impedances,
+        "unknowns_total": run.unknowns,
+        "setup_seconds": run.setup_s,
+        "frequencies_hz": pts.iter().map(|p| p.frequency_hz).collect::<Vec<_>>(),
+        "s": pts.iter().map(|p| pairs(&p.s)).collect::<Vec<_>>(),
+        "z": pts.iter().map(|p| p.z.as_ref().map(pairs)).collect::<Vec<_>>(),
+        "y": pts.iter().map(|p| pairs(&p.y)).collect::<Vec<_>>(),
+        "unknowns": pts.iter().map(|p| p.solve.unknowns).collect::<Vec<_>>(),
+        "iterations": pts.iter().map(|p| p.solve.iterations.clone()).collect::<Vec<_>>(),
+        "residuals": pts.iter().map(|p| p.solve.residuals.clone()).collect::<Vec<_>>(),
+        "compression": pts.iter().map(|p| p.solve.compression).collect::<Vec<_>>(),
+        "memory_bytes": pts.iter().map(|p| p.solve.memory_bytes).collect::<Vec<_>>(),
+        "seconds": pts.iter().map(|p| p.solve.seconds[2]).collect::<Vec<_>>(),
+        "reciprocity_error": pts.iter().map(|p| p.reciprocity_error).collect::<Vec<_>>(),
+        "reciprocal": pts.iter().map(|p| p.reciprocity_error <= RECIPROCITY_LIMIT).collect::<Vec<_>>(),
+        "largest_singular_value": pts.iter().map(|p| p.largest_singular_value).collect::<Vec<_>>(),
+        "passive": pts.iter().map(|p| p.largest_singular_value <= 1.0 + PASSIVITY_MARGIN).collect::<Vec<_>>(),
+        "warnings": pts.iter().flat_map(|p| p.warnings.clone()).collect::<Vec<_>>(),
+        "failed": run.failure.as_ref().map(|(f, e)| serde_json::json!({"frequency_hz": f, "error": e})),
+    })
+}
+
+/// Writes `<name>.sNp` (Touchstone 1.1, RI), `sweep.json` and `sparams.{svg,png}` into the
+/// staging folder and commits it. Returns the Touchstone file name.
+pub fn write_outputs(mut st: Staging, layout: &Layout, run: &SweepRun) -> Result<String> {
+    let n = run.ports.len();
+    let name = format!("{}.s{n}p", layout.name);
+    st.add("sweep.json", serde_json::to_string_pretty(&json(layout, run))?.as_bytes())?;
+    if !run.points.is_empty() {
+        let freqs: Vec<f64> = run.points.iter().map(|p| p.frequency_hz).collect();
+        let first = run.impedances[0];
+        let uniform = run.impedances.iter().all(|&z| z == first);
+        let z_ref = if uniform { first } else { 50.0 };
+        let s: Vec<DenseMatrix<Complex64>> = run
+            .points
+            .iter()
+            .map(|p| if uniform { Ok(p.s.clone()) } else { network::renormalize(&p.s, &run.impedances, &vec![50.0; n]) })
+            .collect::<Result<_, _>>()?;
+        let mut header = vec![
+            format!("{} ({}): S-parameters from rafter sweep", layout.name, layout.file),
+            format!("medium: {}", run.medium),
+            format!(
+                "ports: {}",
+                run.ports.iter().zip(&run.impedances).map(|(p, z)| format!("{p} ({z} ohm)")).collect::<Vec<_>>().join(", ")
+            ),
+        ];
+        if !uniform {
+            header.push("the ports' reference impedances differ: this file is renormalised to 50 ohm at every port".into());
+        }
+        header.push("engineering estimate: validate critical designs by measurement".into());
+        let text = touchstone::touchstone(&freqs, &s, z_ref, touchstone::NumberFormat::RealImag, &header)?;
+        st.add(&name, text.as_bytes())?;
+        let pic = sparams_plot::s_parameter_plot(
+            &freqs,
+            &run.points.iter().map(|p| p.s.clone()).collect::<Vec<_>>(),
+            &run.ports,
+            &format!("{}: S-parameters", layout.name),
+        )?;
+        st.add("sparams.svg", pic.svg.as_bytes())?;
+        st.add("sparams.png", &pic.png)?;
+    }
+    st.commit()?;
+    Ok(name)
+}
+
+/// A short text table of a run: per frequency |S_ij| (dB) of the first few entries,
+/// iterations, compression, seconds and the checks.
+pub fn table_text(run: &SweepRun) -> String {
+    use std::fmt::Write;
+    let n = run.ports.len();
+    let mut t = String::new();
+    let _ = writeln!(t, "{} unknowns; medium: {}", run.unknowns, run.medium);
+    let entries: Vec<(usize, usize)> = (0..n).flat_map(|j| (j..n).map(move |i| (i, j))).take(4).collect();
+    let _ = write!(t, "{:>14}", "f (Hz)");
+    for &(i, j) in &entries {
+        let _ = write!(t, " {:>10}", format!("|S{}{}| dB", i + 1, j + 1));
+    }
+    let _ = writeln!(t, " {:>6} {:>8} {:>8} {:>9} {:>8}", "iters", "compr", "seconds", "recip", "max σ");
+    for p in &run.points {
+        let _ = write!(t, "{:>14.6e}", p.frequency_hz);
+        for &(i, j) in &entries {
+            let _ = write!(t, " {:>10.3}", 20.0 * p.s.get(i, j).norm().max(1e-10).log10());
+        }
+        let _ = writeln!(
+            t,
+            " {:>6} {:>7.2}% {:>8.2} {:>9.1e} {:>8.6}",
+            p.solve.iterations.iter().max().unwrap_or(&0),
+            100.0 * p.solve.compression,
+            p.solve.seconds[2],
+            p.reciprocity_error,
+            p.largest_singular_value
+        );
+    }
+    t
 }

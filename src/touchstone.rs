@@ -16,7 +16,7 @@
 //! through [`parse_touchstone`] keeps every entry to about 1e-12 relative to the largest
 //! entry of its matrix (magnitude/angle pairs lose a little more than real/imaginary ones).
 
-use rafter::linalg::{Complex64, DenseMatrix};
+use crate::linalg::{Complex64, DenseMatrix};
 
 /// How each complex number is written as a pair.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -237,7 +237,7 @@ fn sci(x: f64) -> String {
 
 /// What [`parse_touchstone`] returns: frequencies (Hz), one S matrix per frequency, and the
 /// reference resistance (Ω).
-#[cfg_attr(not(test), allow(dead_code))]
+
 pub type TouchstoneData = (Vec<f64>, Vec<DenseMatrix<Complex64>>, f64);
 
 /// Reads back a Touchstone 1.x file of `nports` ports holding S-parameters: returns the
@@ -252,7 +252,7 @@ pub type TouchstoneData = (Vec<f64>, Vec<DenseMatrix<Complex64>>, f64);
 /// # Errors
 /// A message naming the line for: no option line before the data, an unknown option, a
 /// non-number, a number count that is not a whole number of blocks, or `nports` of 0.
-#[cfg_attr(not(test), allow(dead_code))] // the writer's check; not (yet) used by the CLI
+ // the writer's check; not (yet) used by the CLI
 pub fn parse_touchstone(text: &str, nports: usize) -> Result<TouchstoneData, String> {
     if nports == 0 {
         return Err("Touchstone: a file has at least one port".into());
