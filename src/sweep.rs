@@ -19,7 +19,7 @@ use crate::extract::panels;
 use crate::output::Staging;
 use crate::{sparams_plot, touchstone};
 use rafter_linalg::DenseMatrix;
-use rafter_mom::network;
+use rafter_mom::{network, surface};
 use rafter_mom::wave::{FrequencyResult, WaveOptions, WaveProblem};
 use std::time::Instant;
 
@@ -234,7 +234,17 @@ pub fn run(layout: &Layout, progress: &mut dyn FnMut(usize, usize, &str)) -> Res
         progress(i, freqs.len(), &format!("{f:.4e} Hz"));
         let point = (|| -> Result<SweepPoint> {
             let green = setup.green(f, 0.1 * tol)?;
-            let solve = problem.solve(f, green.as_ref(), setup.medium.eta(), &opts, &mut |_| {})?;
+            let zs: Option<Vec<Complex64>> = layout.nets.iter().any(|n| n.conductor.is_some()).then(|| {
+                setup
+                    .net_of
+                    .iter()
+                    .map(|&net| match &layout.nets[net].conductor {
+                        Some(c) => surface::surface_impedance(f, c.conductivity, c.thickness),
+                        None => Complex64::new(0.0, 0.0),
+                    })
+                    .collect()
+            });
+            let solve = problem.solve(f, green.as_ref(), setup.medium.eta(), zs.as_deref(), &opts, &mut |_| {})?;
             let s = network::s_from_y(&solve.y, &impedances)?;
             let z = network::z_from_y(&solve.y).ok();
             let reciprocity_error = network::reciprocity_error(&s);

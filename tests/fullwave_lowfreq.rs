@@ -45,7 +45,7 @@ fn low_frequency_admittance_is_capacitance() {
     for f in [1e6] {
         let green = setup.green(f, 1e-7).unwrap();
         let r = problem
-            .solve(f, green.as_ref(), setup.medium.eta(), &WaveOptions::with_tolerance(1e-5), &mut |_| {})
+            .solve(f, green.as_ref(), setup.medium.eta(), None, &WaveOptions::with_tolerance(1e-5), &mut |_| {})
             .unwrap();
         let w = 2.0 * std::f64::consts::PI * f;
         let y = &r.y;
@@ -104,7 +104,7 @@ fn stripline_low_frequency() {
         let green = setup.green(f, 1e-6).unwrap();
         println!("green {:?}", t.elapsed());
         let r = problem
-            .solve(f, green.as_ref(), setup.medium.eta(), &WaveOptions::with_tolerance(1e-4), &mut |_| {})
+            .solve(f, green.as_ref(), setup.medium.eta(), None, &WaveOptions::with_tolerance(1e-4), &mut |_| {})
             .unwrap();
         let w = 2.0 * std::f64::consts::PI * f;
         let c: Vec<Complex64> = (0..4).map(|i| r.y.get(i % 2, i / 2) / Complex64::new(0.0, w)).collect();

@@ -20,6 +20,7 @@ pub mod mpie;
 pub mod network;
 pub mod projector;
 pub mod statics;
+pub mod surface;
 pub mod wave;
 
 pub use capacitance::{

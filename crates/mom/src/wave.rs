@@ -146,11 +146,15 @@ impl<'a> WaveProblem<'a> {
 
     /// Solves at `frequency_hz` with the kernel `green` (wavenumber `green.k()`) of a medium of
     /// wave impedance `eta` (Ω). `progress(stage)` reports the stages.
+    ///
+    /// `surface_impedance`, when given, holds `Z_s` (Ω) per panel (conductor loss, see
+    /// [`crate::surface`]); `None` is a perfect conductor.
     pub fn solve(
         &self,
         frequency_hz: f64,
         green: &dyn WaveGreen,
         eta: C,
+        surface_impedance: Option<&[C]>,
         opts: &WaveOptions,
         progress: &mut dyn FnMut(&str),
     ) -> Result<FrequencyResult, MomError> {
@@ -167,8 +171,43 @@ impl<'a> WaveProblem<'a> {
         let t_build = t0.elapsed().as_secs_f64();
         progress("solve");
         let alpha = (k * ell).sqrt();
-        let op = Scaled { a: &a, p: &p, proj: &self.projector, k, ell, alpha };
-        let pc = Precond { ba: a.block_jacobi()?, bp: p.block_jacobi()?, proj: &self.projector, ell };
+        // Conductor loss: T̃ = (Z_s/η) T, sparse, added to jk A (both act on S x).
+        let loss: Vec<(usize, usize, C)> = match surface_impedance {
+            Some(zs) => {
+                if zs.len() != self.panels.len() {
+                    return Err(MomError::Input(format!(
+                        "{} surface impedances for {} panels",
+                        zs.len(),
+                        self.panels.len()
+                    )));
+                }
+                let w: Vec<C> = zs.iter().map(|z| z / eta).collect();
+                crate::surface::gram(self.basis, self.panels, &w)
+            }
+            None => Vec::new(),
+        };
+        let op = Scaled { a: &a, p: &p, proj: &self.projector, k, ell, alpha, loss: &loss };
+        // Block-Jacobi of jk A + T̃ (the loop part's operator up to 1/(kℓ)), scaled back to A's
+        // size: (A + T̃/(jk)).
+        let mut blocks = a.diagonal_blocks();
+        if !loss.is_empty() {
+            let jk = C::new(0.0, 1.0) * k;
+            let mut place = vec![(usize::MAX, 0usize); self.basis.functions.len()];
+            for (b, (idx, _)) in blocks.iter().enumerate() {
+                for (i, &g) in idx.iter().enumerate() {
+                    place[g] = (b, i);
+                }
+            }
+            for &(m, n, v) in &loss {
+                let ((bm, im), (bn, jn)) = (place[m], place[n]);
+                if bm == bn && bm != usize::MAX {
+                    let d = &mut blocks[bm].1;
+                    d.set(im, jn, d.get(im, jn) + v / jk);
+                }
+            }
+        }
+        let ba = BlockDiagonal::new(self.basis.functions.len(), blocks)?;
+        let pc = Precond { ba, bp: p.block_jacobi()?, proj: &self.projector, ell };
         let rhs: Vec<Vec<C>> =
             self.ports.iter().map(|u| apply_s(&self.projector, alpha, u).into_iter().map(|v| v / eta).collect()).collect();
         let t1 = Instant::now();
@@ -230,7 +269,7 @@ fn apply_s(proj: &StarProjector, alpha: C, y: &[C]) -> Vec<C> {
     y.iter().zip(&s).map(|(&v, &w)| v * ai + w * d).collect()
 }
 
-/// The scaled operator `Ẑ = jk S A S − jℓ D P Dᵀ` (see the module docs).
+/// The scaled operator `Ẑ = S (jk A + T̃) S − jℓ D P Dᵀ` (see the module docs).
 struct Scaled<'a> {
     a: &'a HMatrix<C>,
     p: &'a HMatrix<C>,
@@ -238,6 +277,8 @@ struct Scaled<'a> {
     k: C,
     ell: f64,
     alpha: C,
+    /// `(m, n, (Z_s/η) T_mn)` of conductor loss.
+    loss: &'a [(usize, usize, C)],
 }
 
 impl LinearOperator<C> for Scaled<'_> {
@@ -260,14 +301,23 @@ impl LinearOperator<C> for Scaled<'_> {
         self.a.matvec_multi(&sx, &mut asx, nrhs).expect("lengths match");
         let mut pq = vec![C::new(0.0, 0.0); np * nrhs];
         self.p.matvec_multi(&q, &mut pq, nrhs).expect("lengths match");
-        let jk = C::new(0.0, 1.0) * self.k;
         let jl = C::new(0.0, self.ell);
         let mut g = vec![C::new(0.0, 0.0); n];
+        let jk = C::new(0.0, 1.0) * self.k;
+        // (jk A + T̃) S x, then S of it.
+        for v in asx.iter_mut() {
+            *v *= jk;
+        }
+        for &(m, k, v) in self.loss {
+            for r in 0..nrhs {
+                asx[r * n + m] += v * sx[r * n + k];
+            }
+        }
         for r in 0..nrhs {
             let s_asx = apply_s(self.proj, self.alpha, &asx[r * n..(r + 1) * n]);
             self.proj.gradient(&pq[r * np..(r + 1) * np], &mut g);
             for ((yo, sa), gv) in y[r * n..(r + 1) * n].iter_mut().zip(&s_asx).zip(&g) {
-                *yo = jk * sa - jl * gv;
+                *yo = sa - jl * gv;
             }
         }
     }
