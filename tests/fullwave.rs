@@ -1,0 +1,150 @@
+//! Full-wave checks of `rafter sweep`'s solver against published results.
+
+use num_complex::Complex64;
+use rafter::mom::network;
+use rafter::mom::wave::{FrequencyResult, WaveOptions, WaveProblem};
+use rafter::sweep::{WaveSetup, setup};
+
+const C0: f64 = 299_792_458.0;
+
+fn solve(s: &WaveSetup, p: &WaveProblem<'_>, f: f64, tol: f64) -> FrequencyResult {
+    let green = s.green(f, 0.1 * tol).unwrap();
+    let r = p.solve(f, green.as_ref(), s.medium.eta(), None, &WaveOptions::with_tolerance(tol), &mut |_| {}).unwrap();
+    // Reciprocity and passivity hold at every frequency of every structure (the issue's contract).
+    let s_mat = network::s_from_y(&r.y, &vec![50.0; r.y.nrows()]).unwrap();
+    assert!(network::reciprocity_error(&s_mat) <= 1e-6, "reciprocity {}", network::reciprocity_error(&s_mat));
+    assert!(network::largest_singular_value(&s_mat) <= 1.0 + 1e-6, "passivity {}", network::largest_singular_value(&s_mat));
+    r
+}
+
+/// A centre-fed strip dipole in free space: two arms of width w separated by a gap g = w/4
+/// with a differential port across it. Thin-dipole theory by the induced-EMF method with the
+/// strip's equivalent radius a = w/4 (C. M. Butler, "The equivalent radius of a narrow
+/// conducting strip", IEEE Trans. AP-30(4), 1982 — from memory) gives, for a/λ = 1e-4
+/// (w/λ = 4e-4), a first resonance at L/λ = 0.484632 with R = 66.74 Ω (the sinusoidal-current
+/// model as tabulated in ../shared/references/published-checks.md §6, after C. A. Balanis,
+/// *Antenna Theory*, 3rd ed., 2005, ch. 4 and 8 — that model is itself good to about 1 % in
+/// length and a few ohms, better the thinner the dipole). Required: resonant length within
+/// 2 %, resistance within 12 %. (Measured: 0.2 % and +8 %. At w/λ = 4e-3 the length agrees to
+/// 0.05 % but the resistance is 13 % above the model's 63.98 Ω; the solver's own resistance is
+/// consistent with its current, whose effective length is 7 % short of the triangular one
+/// for a short dipole — the finite thickness the sinusoidal model leaves out.)
+#[test]
+fn strip_dipole_resonance_matches_induced_emf_theory() {
+    let (l, w) = (150.0, 0.126); // mm: w/λ ≈ 4e-4 at resonance
+    let g = w / 4.0;
+    let text = format!(
+        r#"
+name = "dipole"
+units = "mm"
+[stackup]
+layers = [ {{ name = "sheet", kind = "dielectric", thickness = 1.0, eps_r = 1.0 }} ]
+[[net]]
+name = "left"
+shapes = [ {{ rect = {{ on = "sheet", min = [{x0}, {y0}], max = [{gm}, {y1}] }} }} ]
+[[net]]
+name = "right"
+shapes = [ {{ rect = {{ on = "sheet", min = [{gp}, {y0}], max = [{x1}, {y1}] }} }} ]
+[[port]]
+name = "feed"
+net = "right"
+at = [{gp}, 0]
+to = "left"
+[mesh]
+max_cell = 2.0
+[solve]
+tolerance = 1e-5
+"#,
+        x0 = -l / 2.0,
+        x1 = l / 2.0,
+        y0 = -w / 2.0,
+        y1 = w / 2.0,
+        gm = -g / 2.0,
+        gp = g / 2.0
+    );
+    let layout = rafter::layout::parse_str(&text, "dipole.toml").unwrap();
+    let s = setup(&layout).unwrap();
+    let p = WaveProblem::new(&s.panels, &s.basis).unwrap();
+    let zin = |f: f64| 1.0 / solve(&s, &p, f, 1e-5).y.get(0, 0);
+    // Bracket the first zero of the reactance, then refine by the secant rule.
+    let (mut fa, mut fb) = (0.90e9, 1.02e9);
+    let (mut xa, mut xb) = (zin(fa).im, zin(fb).im);
+    assert!(xa < 0.0 && xb > 0.0, "no resonance in [0.9, 1.0] GHz: X = {xa}, {xb}");
+    for _ in 0..4 {
+        let fc = fb - xb * (fb - fa) / (xb - xa);
+        let xc = zin(fc).im;
+        (fa, xa, fb, xb) = if xc < 0.0 { (fc, xc, fb, xb) } else { (fa, xa, fc, xc) };
+    }
+    let f0 = fb - xb * (fb - fa) / (xb - xa);
+    let z0 = zin(f0);
+    let (len_lambda, r) = (l * 1e-3 * f0 / C0, z0.re);
+    println!("resonance {f0:.6e} Hz: L/λ = {len_lambda:.5}, Zin = {z0:.3} Ω, w/λ = {:.2e}", w * 1e-3 * f0 / C0);
+    assert!((len_lambda - 0.484632).abs() <= 0.02 * 0.484632, "L/λ = {len_lambda}");
+    assert!((r - 66.74).abs() <= 0.12 * 66.74, "R = {r}");
+}
+
+/// Two coupled striplines, each fed by one port to ground at one end, the other end open: at
+/// 1 MHz the structure is a capacitor, and `Im(Y)/ω` must reproduce the Maxwell capacitance
+/// matrix of `rafter extract` (the electrostatic solver, itself checked against Cohn's
+/// stripline formula and the shared table of published checks) within 1 % in every entry.
+#[test]
+fn low_frequency_admittance_is_the_capacitance_matrix() {
+    let text = r#"
+name = "stripline-pair"
+units = "mm"
+[stackup]
+layers = [
+  { name = "gnd", kind = "ground" },
+  { name = "lower", kind = "dielectric", thickness = 0.5, eps_r = 4.4 },
+  { name = "upper", kind = "dielectric", thickness = 0.5, eps_r = 4.4 },
+  { name = "top", kind = "ground" },
+]
+[[net]]
+name = "a"
+shapes = [ { trace = { on = "lower", width = 0.4, path = [[0, 0], [10, 0]] } } ]
+[[net]]
+name = "b"
+shapes = [ { trace = { on = "lower", width = 0.4, path = [[0, 0.8], [10, 0.8]] } } ]
+[[port]]
+name = "pa"
+net = "a"
+at = [-0.2, 0]
+to = "gnd"
+[[port]]
+name = "pb"
+net = "b"
+at = [-0.2, 0.8]
+to = "gnd"
+[mesh]
+max_cell = 0.1
+[solve]
+tolerance = 1e-4
+"#;
+    let layout = rafter::layout::parse_str(text, "pair.toml").unwrap();
+    let s = setup(&layout).unwrap();
+    let green = rafter::extract::green_for(&layout).unwrap();
+    let cap = rafter::mom::capacitance(
+        &s.panels,
+        &s.net_of,
+        2,
+        green.as_ref(),
+        &rafter::mom::CapacitanceOptions::for_tolerance(1e-5),
+        None,
+        &mut |_, _, _| {},
+    )
+    .unwrap();
+    let p = WaveProblem::new(&s.panels, &s.basis).unwrap();
+    let f = 1e6;
+    let r = solve(&s, &p, f, 1e-4);
+    let w = 2.0 * std::f64::consts::PI * f;
+    for i in 0..2 {
+        for j in 0..2 {
+            let c = (r.y.get(i, j) / Complex64::new(0.0, w)).re;
+            let e = cap.maxwell[i][j];
+            println!("C{i}{j}: full-wave {c:.6e}, extract {e:.6e} ({:+.3} %)", 100.0 * (c - e) / e);
+            assert!((c - e).abs() <= 0.01 * e.abs(), "C{i}{j}: {c} vs {e}");
+            // A capacitor: the real part of Y (loss, radiation) is negligible at 1 MHz.
+            assert!(r.y.get(i, j).re.abs() <= 1e-6 * r.y.get(i, j).im.abs());
+        }
+    }
+}
