@@ -7,6 +7,8 @@
 //!   not on the scale;
 //! - [`charge_density`]: the surface charge density of every mesh cell in plan view, one
 //!   panel per face height, on a diverging blue–white–red scale centred on zero;
+//! - [`current_density`]: the magnitude of the surface current density of every mesh cell,
+//!   laid out like the charge density, on the viridis sequential scale from zero;
 //! - [`convergence`]: GMRES relative residual against iteration on a logarithmic axis, one
 //!   line per right-hand side, with the tolerance as a dashed line.
 //!
@@ -46,7 +48,8 @@ pub struct Rendered {
 /// sequential scale of the low-rank blocks.
 pub const DENSE_BLOCK_RGB: [u8; 3] = [88, 88, 88];
 
-/// Colour of `t` in `[0, 1]` on the sequential scale of [`block_partition`]: viridis (as
+/// Colour of `t` in `[0, 1]` on the sequential scale of [`block_partition`] and
+/// [`current_density`]: viridis (as
 /// shipped by plotters), dark purple at 0 through blue and green to yellow at 1. Perceptually
 /// uniform and readable with the common colour-vision deficiencies. `t` is clamped to
 /// `[0, 1]`; a NaN gives the colour of 0.
@@ -155,8 +158,8 @@ fn font(size: u32) -> TextStyle<'static> {
     (FONT, size).into_font().into()
 }
 
-/// Light grey behind the conductors of a charge-density panel, so that near-zero (white)
-/// cells stay visible.
+/// Light grey behind the conductors of a per-cell map, so that near-zero cells (white on the
+/// charge scale) stay visible.
 const PANEL_BACKGROUND: RGBColor = RGBColor(222, 222, 222);
 
 /// Items whose pixel box is smaller than this on either side are merged into tiles.
@@ -556,11 +559,104 @@ pub fn charge_density(
     unit_name: &str,
     title: &str,
 ) -> Result<Rendered> {
-    let fig = Charge::new(cells, density, unit_m, unit_name, title)?;
+    let fig = CellMap::new(CellScale::Charge, cells, density, unit_m, unit_name, title)?;
     render(&fig, "charge density figure")
 }
 
-struct Charge<'a> {
+// ---------------------------------------------------------------------------------------------
+// Current density
+// ---------------------------------------------------------------------------------------------
+
+/// Draws the magnitude of the surface current density of every mesh cell on the layout, in
+/// plan view.
+///
+/// `cells` are in metres; `magnitude[k]` is `|J|` of cell `k` in A/m (non-negative, e.g. the
+/// phasor norm `√(|Jx|² + |Jy|²)` at the cell's centroid from
+/// `rafter_mom::current_map`). The layout is that of [`charge_density`]: axes in layout units
+/// (coordinates divided by `unit_m`, labelled with `unit_name`), one panel per face height,
+/// shared x and y ranges and one shared colour scale, sub-pixel cells merged into 2-pixel
+/// tiles coloured by the largest `|J|` among them.
+///
+/// Colours: the viridis sequential scale of [`sequential_rgb`] from 0 (dark purple) to L
+/// (yellow), where L is the `|J|` exceeded on only 1 % of the conductor area (the current
+/// density is singular at conductor edges too); denser cells take the end colour and a note
+/// under the colour bar gives the largest `|J|`. The colour bar is labelled `|J| (A/m)`, with
+/// a power-of-ten factor where needed. A map of zeros is drawn on the scale 0 to 1 A/m.
+///
+/// # Errors
+/// No cells, `magnitude.len() != cells.len()`, a negative or non-finite value, a non-finite
+/// coordinate, a `unit_m` that is not finite and positive, or a failure of the backends.
+pub fn current_density(
+    cells: &[Cell],
+    magnitude: &[f64],
+    unit_m: f64,
+    unit_name: &str,
+    title: &str,
+) -> Result<Rendered> {
+    let fig = CellMap::new(CellScale::Current, cells, magnitude, unit_m, unit_name, title)?;
+    render(&fig, "current density figure")
+}
+
+// ---------------------------------------------------------------------------------------------
+// Per-cell maps (charge and current density)
+// ---------------------------------------------------------------------------------------------
+
+/// What a per-cell map shows, and so its colour scale.
+#[derive(Clone, Copy, Debug, PartialEq)]
+enum CellScale {
+    /// Signed surface charge density (C/m²): diverging scale, symmetric about zero.
+    Charge,
+    /// Current density magnitude (A/m, non-negative): sequential scale from zero.
+    Current,
+}
+
+impl CellScale {
+    /// Name of the figure in messages.
+    fn what(self) -> &'static str {
+        match self {
+            CellScale::Charge => "charge density",
+            CellScale::Current => "current density",
+        }
+    }
+    /// What one value is called in messages.
+    fn value_name(self) -> &'static str {
+        match self {
+            CellScale::Charge => "density",
+            CellScale::Current => "|J|",
+        }
+    }
+    /// Symbol on the colour bar, and of the magnitude in the note.
+    fn symbols(self) -> (&'static str, &'static str) {
+        match self {
+            CellScale::Charge => ("σ", "|σ|"),
+            CellScale::Current => ("|J|", "|J|"),
+        }
+    }
+    /// SI unit of the values.
+    fn unit(self) -> &'static str {
+        match self {
+            CellScale::Charge => "C/m²",
+            CellScale::Current => "A/m",
+        }
+    }
+    /// Lower end of the scale as a fraction of its upper end.
+    fn bottom(self) -> f64 {
+        match self {
+            CellScale::Charge => -1.0,
+            CellScale::Current => 0.0,
+        }
+    }
+    /// Colour of `t` = value / upper end.
+    fn rgb(self, t: f64) -> [u8; 3] {
+        match self {
+            CellScale::Charge => diverging_rgb(t),
+            CellScale::Current => sequential_rgb(t),
+        }
+    }
+}
+
+struct CellMap<'a> {
+    scale: CellScale,
     cells: &'a [Cell],
     density: &'a [f64],
     unit_m: f64,
@@ -570,7 +666,8 @@ struct Charge<'a> {
     faces: Vec<(String, Vec<usize>)>,
     /// Plot extent in layout units: x0, x1, y0, y1.
     extent: [f64; 4],
-    /// Half-range of the colour scale (C/m²) and the largest |σ|.
+    /// Upper end of the colour scale (the half-range for a diverging scale) and the largest
+    /// magnitude.
     limit: f64,
     max_abs: f64,
     /// Panel grid (columns, rows) and plotting-area size of a panel (pixels).
@@ -585,28 +682,32 @@ const PANEL_MARGIN: u32 = 12;
 const CHARGE_TITLE: u32 = 44;
 const CHARGE_LEGEND: u32 = 200;
 
-impl<'a> Charge<'a> {
+impl<'a> CellMap<'a> {
     fn new(
+        scale: CellScale,
         cells: &'a [Cell],
         density: &'a [f64],
         unit_m: f64,
         unit_name: &'a str,
         title: &'a str,
     ) -> Result<Self> {
-        ensure!(!cells.is_empty(), "charge density: no cells to draw (hint: pass the mesh's cells)");
+        let (what, value) = (scale.what(), scale.value_name());
+        ensure!(!cells.is_empty(), "{what}: no cells to draw (hint: pass the mesh's cells)");
         ensure!(
             density.len() == cells.len(),
-            "charge density: {} density values for {} cells; there must be one value per cell, in cell order",
+            "{what}: {} {value} values for {} cells; there must be one value per cell, in cell order",
             density.len(),
             cells.len()
         );
         ensure!(
             unit_m.is_finite() && unit_m > 0.0,
-            "charge density: layout unit of {unit_m} m; it must be finite and positive (e.g. 1e-3 for mm)"
+            "{what}: layout unit of {unit_m} m; it must be finite and positive (e.g. 1e-3 for mm)"
         );
-        if let Some(k) = density.iter().position(|d| !d.is_finite()) {
+        let signed = scale.bottom() < 0.0;
+        if let Some(k) = density.iter().position(|d| !d.is_finite() || (!signed && *d < 0.0)) {
+            let rule = if signed { "finite" } else { "finite and non-negative" };
             bail!(
-                "charge density: density of cell {k} is {} (of {} cells); all must be finite",
+                "{what}: {value} of cell {k} is {} (of {} cells); all must be {rule}",
                 density[k],
                 cells.len()
             );
@@ -617,7 +718,7 @@ impl<'a> Charge<'a> {
             let pts = corners(&c.shape);
             ensure!(
                 c.z.is_finite() && pts.iter().flatten().all(|v| v.is_finite()),
-                "charge density: cell {k} (of {}) has a non-finite coordinate",
+                "{what}: cell {k} (of {}) has a non-finite coordinate",
                 cells.len()
             );
             for [x, y] in pts {
@@ -666,6 +767,7 @@ impl<'a> Charge<'a> {
         let pw = ((x1 - x0) * s).max(120.0);
         let ph = ((y1 - y0) * s).max(80.0);
         Ok(Self {
+            scale,
             cells,
             density,
             unit_m,
@@ -719,7 +821,7 @@ impl<'a> Charge<'a> {
         pa.fill(&PANEL_BACKGROUND)?;
         let (sx, sy) = (f64::from(w) / (x1 - x0), f64::from(h) / (y1 - y0));
         let to_px = |[x, y]: [f64; 2]| [(x / self.unit_m - x0) * sx, (y1 - y / self.unit_m) * sy];
-        let colour = |d: f64| rgb(diverging_rgb(d / self.limit));
+        let colour = |d: f64| rgb(self.scale.rgb(d / self.limit));
         let mut tiles = Tiles::new(w, h);
         let mut big: Vec<(PixelShape, RGBColor)> = Vec::new();
         for &k in &face.1 {
@@ -838,7 +940,7 @@ fn group_faces(cells: &[Cell], unit_m: f64, unit_name: &str) -> Vec<(String, Vec
         .collect()
 }
 
-impl Figure for Charge<'_> {
+impl Figure for CellMap<'_> {
     fn size(&self) -> (u32, u32) {
         let (pw, ph) = self.panel_size();
         let w = self.grid.0 as u32 * pw + CHARGE_LEGEND;
@@ -866,10 +968,13 @@ impl Figure for Charge<'_> {
             self.draw_panel(&area, face)?;
         }
 
-        // Colour bar: values in units of 10^e C/m².
+        // Colour bar: values in units of 10^e (C/m² or A/m).
+        let (symbol, abs_symbol) = self.scale.symbols();
+        let si = self.scale.unit();
         let e = self.limit.log10().floor() as i32;
         let unit = 10f64.powi(e);
         let l = self.limit / unit;
+        let (lo, t0) = (self.scale.bottom() * l, self.scale.bottom());
         let bar_h =
             (body.dim_in_pixel().1.saturating_sub(PANEL_MARGIN + PANEL_CAPTION + 110)).clamp(200, 600);
         let bar_area = legend.margin(PANEL_MARGIN + PANEL_CAPTION, 0, 0, 0).split_vertically(bar_h).0;
@@ -877,8 +982,9 @@ impl Figure for Charge<'_> {
             .margin_left(20)
             .margin_right(10)
             .set_label_area_size(LabelAreaPosition::Right, 80)
-            .build_cartesian_2d(0f64..1f64, -l..l)?;
-        let desc = if e == 0 { "σ (C/m²)".to_string() } else { format!("σ ({} C/m²)", power_of_ten(e)) };
+            .build_cartesian_2d(0f64..1f64, lo..l)?;
+        let desc =
+            if e == 0 { format!("{symbol} ({si})") } else { format!("{symbol} ({} {si})", power_of_ten(e)) };
         bar.configure_mesh()
             .disable_mesh()
             .disable_x_axis()
@@ -889,9 +995,9 @@ impl Figure for Charge<'_> {
             .axis_desc_style(font(15))
             .draw()?;
         const STEPS: usize = 64;
-        let at = |i: usize| -l + 2.0 * l * i as f64 / STEPS as f64;
+        let at = |i: usize| lo + (l - lo) * i as f64 / STEPS as f64;
         bar.draw_series((0..STEPS).map(|i| {
-            let c = rgb(diverging_rgb(2.0 * (i as f64 + 0.5) / STEPS as f64 - 1.0));
+            let c = rgb(self.scale.rgb((1.0 - t0) * (i as f64 + 0.5) / STEPS as f64 + t0));
             Rectangle::new([(0.0, at(i)), (1.0, at(i + 1))], c.filled())
         }))?;
         let bar_px = bar.plotting_area().strip_coord_spec();
@@ -900,9 +1006,10 @@ impl Figure for Charge<'_> {
         if self.max_abs > self.limit * (1.0 + 1e-9) {
             let note = legend.margin(PANEL_MARGIN + PANEL_CAPTION + bar_h + 16, 0, 12, 0);
             let style = font(12).pos(Pos::new(HPos::Left, VPos::Top));
-            note.draw_text(&format!("end colours: |σ| ≥ {} C/m²", tick(self.limit)), &style, (0, 0))?;
+            let ends = if t0 < 0.0 { "end colours" } else { "end colour" };
+            note.draw_text(&format!("{ends}: {abs_symbol} ≥ {} {si}", tick(self.limit)), &style, (0, 0))?;
             note.draw_text("(on 1 % of the conductor area)", &style, (0, 16))?;
-            note.draw_text(&format!("max |σ| = {} C/m²", tick(self.max_abs)), &style, (0, 32))?;
+            note.draw_text(&format!("max {abs_symbol} = {} {si}", tick(self.max_abs)), &style, (0, 32))?;
         }
         Ok(())
     }

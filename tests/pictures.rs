@@ -5,7 +5,8 @@ use rafter::cluster::{Admissibility, BlockKind, BlockTree, ClusterTree};
 use rafter::hmatrix::BlockStats;
 use rafter::layout::{Cell, CellShape, Rect};
 use rafter::pictures::{
-    DENSE_BLOCK_RGB, Rendered, block_partition, charge_density, convergence, diverging_rgb, sequential_rgb,
+    DENSE_BLOCK_RGB, Rendered, block_partition, charge_density, convergence, current_density, diverging_rgb,
+    sequential_rgb,
 };
 
 // ---------------------------------------------------------------------------------------------
@@ -470,4 +471,144 @@ fn convergence_refuses_bad_input() {
     assert!(err_text(convergence(&[("d".into(), vec![1.0, -0.1])], 1e-6, "t")).contains("-0.1"));
     assert!(err_text(convergence(&ok, 0.0, "t")).contains("tolerance 0"));
     assert!(err_text(convergence(&ok, f64::INFINITY, "t")).contains("tolerance inf"));
+}
+
+// ---------------------------------------------------------------------------------------------
+// Current density
+// ---------------------------------------------------------------------------------------------
+
+/// Big filled rectangles (cells, not colour-bar steps or tiles) of one colour.
+fn big_rects(svg: &str, c: [u8; 3]) -> Vec<(i32, i32, i32, i32, String)> {
+    filled_rects(svg).into_iter().filter(|q| q.4 == hex(c) && q.2 > 40 && q.3 > 40).collect()
+}
+
+#[test]
+fn current_density_draws_one_panel_per_face_on_a_sequential_scale_from_zero() {
+    // |J| of 2, 0, 0.5 and 1 A/m: the 99th area-percentile is the largest value (2 A/m), so
+    // the cells take the sequential colours of 1, 0, 1/4 and 1/2 and no saturation note shows.
+    let (cells, _) = small_mesh();
+    let magnitude = [2.0, 0.0, 0.5, 1.0];
+    let r = current_density(&cells, &magnitude, 1e-3, "mm", "|J| at 1 GHz, port 1 driven").unwrap();
+    let img = check_outputs(&r);
+    for text in ["face z = 0.00 mm", "face z = 0.20 mm", "x (mm)", "y (mm)", "|J| (A/m)", "port 1 driven"] {
+        assert!(r.svg.contains(text), "missing text {text:?}");
+    }
+    assert!(!r.svg.contains("max |J|"), "saturation note without saturation");
+    let (top, zero) = (big_rects(&r.svg, sequential_rgb(1.0)), big_rects(&r.svg, sequential_rgb(0.0)));
+    assert_eq!((top.len(), zero.len()), (1, 1), "top {top:?} zero {zero:?}");
+    let (p, q) = (&top[0], &zero[0]);
+    assert!(p.0 < q.0, "the 2 A/m cell (left in the layout) is drawn right of the 0 A/m one");
+    assert_eq!(img.at(p.0 + p.2 / 2, p.1 + p.3 / 2), sequential_rgb(1.0));
+    assert_eq!(img.at(q.0 + q.2 / 2, q.1 + q.3 / 2), sequential_rgb(0.0));
+    let fills: Vec<&str> = elements(&r.svg, "polygon").iter().map(|t| attr(t, "fill").unwrap()).collect();
+    assert_eq!(fills.len(), 2, "one polygon per triangle");
+    assert!(fills.contains(&hex(sequential_rgb(0.25)).as_str()), "{fills:?}");
+    assert!(fills.contains(&hex(sequential_rgb(0.5)).as_str()), "{fills:?}");
+    // The colour bar runs along the sequential scale (its first and last steps), and nothing
+    // is drawn in the diverging colours.
+    let all = filled_rects(&r.svg);
+    for t in [0.5 / 64.0, 63.5 / 64.0] {
+        assert!(all.iter().any(|q| q.4 == hex(sequential_rgb(t))), "no colour-bar step at {t}");
+    }
+    assert!(!all.iter().any(|q| q.4 == hex(diverging_rgb(1.0)) || q.4 == hex(diverging_rgb(-1.0))));
+    assert!(inked(&img, 0, 40) > 200, "no title text in the PNG");
+
+    // A map of zeros is drawn (on 0 to 1 A/m), every cell in the bottom colour.
+    let r = current_density(&cells, &[0.0; 4], 1e-3, "mm", "zero").unwrap();
+    check_outputs(&r);
+    assert_eq!(big_rects(&r.svg, sequential_rgb(0.0)).len(), 2);
+}
+
+#[test]
+fn current_density_saturates_the_scale_at_rare_edge_values() {
+    // 100 equal cells of 5 mA/m and one tiny cell of 2 A/m (the edge singularity): the scale
+    // spans the bulk, the tiny cell takes the end colour and the note gives the maximum.
+    let mm = 1e-3;
+    let mut cells: Vec<Cell> = (0..100)
+        .map(|i| rect_cell(0, i as f64 * 0.1 * mm, (i + 1) as f64 * 0.1 * mm, 0.0, mm, 0.0))
+        .collect();
+    cells.push(rect_cell(0, 0.0, 0.001 * mm, 0.0, 0.001 * mm, 0.0));
+    let mut magnitude = vec![5e-3; 100];
+    magnitude.push(2.0);
+    let r = current_density(&cells, &magnitude, mm, "mm", "edge").unwrap();
+    check_outputs(&r);
+    assert!(r.svg.contains(&format!("fill=\"{}\"", hex(sequential_rgb(1.0)))));
+    assert!(r.svg.contains("|J| (10⁻³ A/m)"), "colour bar not scaled to the bulk");
+    assert!(r.svg.contains("end colour: |J| ≥ 0.005 A/m"));
+    assert!(r.svg.contains("max |J| = 2 A/m"));
+}
+
+/// End to end with the current map of the MoM crate: a strip of 6 × 2 rectangles carrying
+/// rooftop coefficients of 1 across its length and no feeds. The rooftops give |J| = 1 A/m
+/// at the centroids of the inner columns and 1/2 A/m on the end columns, where the open
+/// conductor end forces the normal current to zero and the rooftop falls linearly to it
+/// (rooftop basis: Glisson & Wilton 1980, IEEE Trans. Antennas Propag. 28(5), from memory).
+#[test]
+fn current_density_of_rooftops_on_a_strip() {
+    use num_complex::Complex64;
+    use rafter::green::Panel;
+    use rafter::mom::{current::current_basis, current_map, edges::edge_basis};
+    let mm = 1e-3;
+    let mut cells = Vec::new();
+    let mut panels = Vec::new();
+    for i in 0..6 {
+        for j in 0..2 {
+            let (x0, x1, y0, y1) =
+                (i as f64 * mm, (i + 1) as f64 * mm, j as f64 * 0.5 * mm, (j + 1) as f64 * 0.5 * mm);
+            cells.push(rect_cell(0, x0, x1, y0, y1, 0.0));
+            panels.push(Panel::Rect { x0, x1, y0, y1, z: 0.0 });
+        }
+    }
+    let net_of = vec![0; panels.len()];
+    let edges = edge_basis(&panels, &net_of).unwrap();
+    let basis = current_basis(&panels, &net_of, &edges, &[]).unwrap();
+    // Coefficient ±1 on the edges across the length, oriented so that the current flows
+    // toward +x (from the `+` panel to the `−` panel), 0 on the edges along it.
+    let coef: Vec<Complex64> = edges
+        .functions
+        .iter()
+        .map(|f| {
+            let across = f.ends[0][0] == f.ends[1][0];
+            let dx = panels[f.minus.panel].center()[0] - panels[f.plus.panel].center()[0];
+            Complex64::new(if across { dx.signum() } else { 0.0 }, 0.0)
+        })
+        .collect();
+    let j = current_map::panel_currents(&basis, &panels, &coef).unwrap();
+    let magnitude: Vec<f64> = j.iter().map(current_map::magnitude).collect();
+    for (k, m) in magnitude.iter().enumerate() {
+        let end = k / 2 == 0 || k / 2 == 5;
+        assert!((m - if end { 0.5 } else { 1.0 }).abs() < 1e-12, "cell {k}: |J| = {m}");
+    }
+    let r = current_density(&cells, &magnitude, mm, "mm", "rooftops").unwrap();
+    let img = check_outputs(&r);
+    let (inner, ends) = (big_rects(&r.svg, sequential_rgb(1.0)), big_rects(&r.svg, sequential_rgb(0.5)));
+    assert_eq!((inner.len(), ends.len()), (8, 4), "inner {inner:?} ends {ends:?}");
+    // The half-current cells are the two leftmost and the two rightmost.
+    let (lo, hi) = (inner.iter().map(|p| p.0).min().unwrap(), inner.iter().map(|p| p.0).max().unwrap());
+    assert_eq!(ends.iter().filter(|q| q.0 < lo).count(), 2, "{ends:?}");
+    assert_eq!(ends.iter().filter(|q| q.0 > hi).count(), 2, "{ends:?}");
+    for q in &ends {
+        assert_eq!(img.at(q.0 + q.2 / 2, q.1 + q.3 / 2), sequential_rgb(0.5));
+    }
+}
+
+#[test]
+fn current_density_refuses_bad_input() {
+    let (cells, _) = small_mesh();
+    let good = [1.0, 0.0, 2.0, 0.5];
+    assert!(err_text(current_density(&[], &[], 1e-3, "mm", "t")).contains("current density: no cells"));
+    let e = err_text(current_density(&cells, &good[..3], 1e-3, "mm", "t"));
+    assert!(e.contains("3 |J| values for 4 cells"), "{e}");
+    let e = err_text(current_density(&cells, &[1.0, 2.0, 3.0, 4.0, 5.0], 1e-3, "mm", "t"));
+    assert!(e.contains("5 |J| values for 4 cells"), "{e}");
+    for (k, bad) in [(1, -0.5), (2, f64::NAN), (3, f64::INFINITY)] {
+        let mut m = good;
+        m[k] = bad;
+        let e = err_text(current_density(&cells, &m, 1e-3, "mm", "t"));
+        assert!(e.contains(&format!("cell {k} is {bad}")) && e.contains("non-negative"), "{e}");
+    }
+    let mut bad_cells = cells.clone();
+    bad_cells[0].z = f64::INFINITY;
+    assert!(err_text(current_density(&bad_cells, &good, 1e-3, "mm", "t")).contains("cell 0"));
+    assert!(err_text(current_density(&cells, &good, -1.0, "mm", "t")).contains("layout unit"));
 }

@@ -15,6 +15,8 @@
 
 pub mod capacitance;
 pub mod current;
+pub mod current_map;
+pub mod deembed;
 pub mod edges;
 pub mod mpie;
 pub mod network;
