@@ -46,6 +46,9 @@ enum Command {
         /// Output folder (created if missing; written all or nothing).
         #[arg(short, long)]
         out: PathBuf,
+        /// Keep the port discontinuities: skip de-embedding the ports to ground.
+        #[arg(long)]
+        raw: bool,
     },
     /// Extract the capacitance matrix of a layout (TOML); writes capacitance.json, .csv and .cir.
     Extract {
@@ -146,7 +149,7 @@ fn run(cli: Cli) -> anyhow::Result<()> {
             };
             run_extract(&layout, &out, dense, &pictures, cli.quiet)
         }
-        Command::Sweep { layout, out } => run_sweep(&layout, &out, cli.quiet),
+        Command::Sweep { layout, out, raw } => run_sweep(&layout, &out, !raw, cli.quiet),
         Command::Verify { layout, out, tolerances, max_error, vectors } => {
             run_verify(&layout, out.as_deref(), tolerances.as_deref(), max_error, vectors, cli.quiet)
         }
@@ -415,7 +418,12 @@ fn run_extract(
     Ok(())
 }
 
-fn run_sweep(path: &std::path::Path, out: &std::path::Path, quiet: bool) -> anyhow::Result<()> {
+fn run_sweep(
+    path: &std::path::Path,
+    out: &std::path::Path,
+    deembed: bool,
+    quiet: bool,
+) -> anyhow::Result<()> {
     let t = Instant::now();
     let layout = rafter::layout::load(path)?;
     if layout.sweep.is_none() || layout.ports.is_empty() {
@@ -441,7 +449,7 @@ fn run_sweep(path: &std::path::Path, out: &std::path::Path, quiet: bool) -> anyh
             b.set_message(msg.to_string());
         }
     };
-    let run = rafter::sweep::run(&layout, &mut progress);
+    let run = rafter::sweep::run(&layout, deembed, &mut progress);
     if let Some(b) = &bar {
         b.finish_and_clear();
     }

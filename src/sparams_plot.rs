@@ -2,14 +2,14 @@
 //! frequency, one curve per matrix entry of the lower triangle, as SVG and PNG (drawn by the
 //! machinery of [`crate::pictures`]).
 
+use crate::linalg::{Complex64, DenseMatrix};
+use crate::pictures::{FONT, Figure, Rendered, render};
 use anyhow::{Result, bail, ensure};
 use plotters::coord::Shift;
 use plotters::coord::ranged1d::{KeyPointHint, KeyPointWeight, NoDefaultFormatting, ValueFormatter};
 use plotters::coord::types::RangedCoordf64;
 use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
-use crate::linalg::{Complex64, DenseMatrix};
-use crate::pictures::{FONT, Figure, Rendered, render};
 
 /// Lowest magnitude drawn (dB): `20 log10 |S|` is clamped here, so exact zeros stay on the
 /// axis.

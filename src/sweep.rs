@@ -19,8 +19,9 @@ use crate::extract::panels;
 use crate::output::Staging;
 use crate::{sparams_plot, touchstone};
 use rafter_linalg::DenseMatrix;
-use rafter_mom::{network, surface};
+use rafter_mom::deembed::{self, PortDiscontinuity};
 use rafter_mom::wave::{FrequencyResult, WaveOptions, WaveProblem};
+use rafter_mom::{network, surface};
 use std::time::Instant;
 
 /// Vacuum permeability μ0 (H/m, CODATA 2022).
@@ -118,13 +119,21 @@ impl WaveSetup {
 
 /// Meshes `layout` and builds its full-wave basis.
 pub fn setup(layout: &Layout) -> Result<WaveSetup> {
+    setup_of(layout)
+}
+
+fn setup_of(layout: &Layout) -> Result<WaveSetup> {
     let medium = Medium::of(layout)?;
     if layout.ports.is_empty() {
-        bail!("{}: no [[port]]: `rafter sweep` needs at least one port\n  hint: add a [[port]] table", layout.file);
+        bail!(
+            "{}: no [[port]]: `rafter sweep` needs at least one port\n  hint: add a [[port]] table",
+            layout.file
+        );
     }
     let mesh = rafter_layout::mesh(layout)?;
     let (panels, net_of) = panels(&mesh);
-    let edges = edge_basis(&panels, &net_of).with_context(|| format!("{}: building the current basis", layout.file))?;
+    let edges = edge_basis(&panels, &net_of)
+        .with_context(|| format!("{}: building the current basis", layout.file))?;
     let tol = rafter_layout::port_edge_tolerance(layout.mesh.max_cell);
     let feeds: Vec<FeedSpec> = layout
         .ports
@@ -141,7 +150,8 @@ pub fn setup(layout: &Layout) -> Result<WaveSetup> {
             tolerance: tol,
         })
         .collect();
-    let basis = current_basis(&panels, &net_of, &edges, &feeds).with_context(|| format!("{}: ports", layout.file))?;
+    let basis =
+        current_basis(&panels, &net_of, &edges, &feeds).with_context(|| format!("{}: ports", layout.file))?;
     let mut heights: Vec<f64> = panels.iter().map(Panel::z).collect();
     heights.sort_by(f64::total_cmp);
     heights.dedup();
@@ -180,8 +190,10 @@ pub struct SweepPoint {
     pub reciprocity_error: f64,
     /// Largest singular value of `S`.
     pub largest_singular_value: f64,
-    /// Warnings (reciprocity or passivity violated).
+    /// Warnings (reciprocity or passivity violated, a port not de-embedded).
     pub warnings: Vec<String>,
+    /// Per de-embedded port: `(port, Z0 (Ω), γ (1/m))` of its feed line at this frequency.
+    pub feed_lines: Vec<(usize, Complex64, Complex64)>,
 }
 
 /// A sweep: the frequencies solved, and the failure that stopped it, if any.
@@ -200,12 +212,129 @@ pub struct SweepRun {
     pub setup_s: f64,
     /// Medium, as a sentence.
     pub medium: String,
+    /// Ports whose discontinuity is removed.
+    pub deembedded: Vec<usize>,
+    /// `(port, l)`: the feed-line standard length (m) per de-embedded port.
+    pub standard_lengths: Vec<(usize, f64)>,
+}
+
+/// `Z_s` per panel of a setup at `f` (`None` when every net is a perfect conductor).
+fn surface_impedances(layout: &Layout, setup: &WaveSetup, f: f64) -> Option<Vec<Complex64>> {
+    layout.nets.iter().any(|n| n.conductor.is_some()).then(|| {
+        setup
+            .net_of
+            .iter()
+            .map(|&net| match &layout.nets[net].conductor {
+                Some(c) => surface::surface_impedance(f, c.conductivity, c.thickness),
+                None => Complex64::new(0.0, 0.0),
+            })
+            .collect()
+    })
+}
+
+/// One frequency of one prepared problem.
+fn solve_at(
+    layout: &Layout,
+    setup: &WaveSetup,
+    problem: &WaveProblem<'_>,
+    f: f64,
+    opts: &WaveOptions,
+) -> Result<FrequencyResult> {
+    let green = setup.green(f, 0.1 * opts.hmatrix.tolerance)?;
+    let zs = surface_impedances(layout, setup, f);
+    Ok(problem.solve(f, green.as_ref(), setup.medium.eta(), zs.as_deref(), opts, &mut |_| {})?)
+}
+
+/// The calibration standards of one kind of ground port (same face, width and metal): its feed
+/// line, a straight strip of the port's width, of lengths `l` and `2l` with a port to the same
+/// ground at each end (see [`rafter_mom::deembed`]).
+pub struct FeedStandard {
+    /// Ports (indices into the layout's ports) of this kind.
+    pub ports: Vec<usize>,
+    /// Strip width (m): the length of the port's conductor side.
+    pub width: f64,
+    /// Standard length `l` (m).
+    pub length: f64,
+    layouts: [Layout; 2],
+    setups: Vec<WaveSetup>,
+}
+
+/// Ground ports grouped by kind, each with its two standards; ports on sides that are not
+/// straight strip ends, and differential ports, are left as they are (not de-embedded).
+fn feed_standards(layout: &Layout, setup: &WaveSetup, f_max: f64) -> Result<Vec<FeedStandard>> {
+    let mut kinds: Vec<FeedStandard> = Vec::new();
+    // Longest standard: a quarter wavelength at the top frequency keeps βl < π/2 for `l` and
+    // βl < π for `2l` (the calibration is undefined at half a wavelength).
+    let lambda_min = C0 / (f_max * setup.medium.eps_r.sqrt());
+    let thickness = match setup.medium.grounds {
+        (Some(a), Some(b)) => b - a,
+        (Some(a), None) => setup.heights.iter().map(|z| z - a).fold(0.0, f64::max),
+        _ => 0.0,
+    };
+    for (i, port) in layout.ports.iter().enumerate() {
+        if !matches!(port.to, PortReference::Ground(_)) {
+            continue;
+        }
+        let width: f64 = setup.basis.ports[i].iter().map(|&n| setup.basis.functions[n].length).sum();
+        let conductor = layout.nets[port.net].conductor;
+        if let Some(k) = kinds.iter_mut().find(|k| {
+            let p0 = &layout.ports[k.ports[0]];
+            (k.width - width).abs() <= 1e-9 * width
+                && p0.z == port.z
+                && p0.to == port.to
+                && layout.nets[p0.net].conductor == conductor
+        }) {
+            k.ports.push(i);
+            continue;
+        }
+        // Long enough for the port's fringing field to settle (common practice: a few strip
+        // widths and a few substrate thicknesses), short of a quarter wavelength.
+        let length = (4.0 * width).max(3.0 * thickness).min(0.25 * lambda_min);
+        let make = |len: f64| {
+            let mut l = layout.clone();
+            l.name = format!("{}-feed-standard", port.name);
+            l.nets = vec![rafter_layout::Net {
+                name: "feed".into(),
+                regions: vec![rafter_layout::Region {
+                    face: port.face.clone(),
+                    z: port.z,
+                    rects: vec![rafter_layout::Rect { x0: 0.0, x1: len, y0: -width / 2.0, y1: width / 2.0 }],
+                    outline: Vec::new(),
+                }],
+                conductor,
+            }];
+            let end = |name: &str, x: f64| rafter_layout::Port {
+                name: name.into(),
+                net: 0,
+                at: [x, 0.0],
+                face: port.face.clone(),
+                z: port.z,
+                to: port.to.clone(),
+                impedance: 50.0,
+            };
+            l.ports = vec![end("near", 0.0), end("far", len)];
+            l.sweep = None;
+            l
+        };
+        let layouts = [make(length), make(2.0 * length)];
+        let setups = layouts
+            .iter()
+            .map(setup_of)
+            .collect::<Result<Vec<_>>>()
+            .with_context(|| format!("port '{}': its feed-line standards", port.name))?;
+        kinds.push(FeedStandard { ports: vec![i], width, length, layouts, setups });
+    }
+    Ok(kinds)
 }
 
 /// Runs the sweep of `layout` (which must have a `[sweep]`). Errors in the setup are returned;
 /// an error at one frequency stops the sweep and is recorded in [`SweepRun::failure`], keeping
 /// the frequencies already solved. `progress(done, total, message)` follows the sweep.
-pub fn run(layout: &Layout, progress: &mut dyn FnMut(usize, usize, &str)) -> Result<SweepRun> {
+///
+/// With `deembed`, every port to a ground has its port discontinuity removed at every
+/// frequency ([`rafter_mom::deembed`]): its feed line's two standards are solved at the same
+/// frequency and tolerance, and the admittances are de-embedded before `S` and `Z` are formed.
+pub fn run(layout: &Layout, deembed: bool, progress: &mut dyn FnMut(usize, usize, &str)) -> Result<SweepRun> {
     let t0 = Instant::now();
     let Some(sweep) = &layout.sweep else {
         bail!(
@@ -217,6 +346,17 @@ pub fn run(layout: &Layout, progress: &mut dyn FnMut(usize, usize, &str)) -> Res
     progress(0, freqs.len(), "meshing and preparing the current basis");
     let setup = setup(layout)?;
     let problem = WaveProblem::new(&setup.panels, &setup.basis).with_context(|| layout.file.clone())?;
+    let standards = if deembed {
+        feed_standards(layout, &setup, freqs.iter().copied().fold(0.0, f64::max))?
+    } else {
+        Vec::new()
+    };
+    let std_problems: Vec<Vec<WaveProblem<'_>>> = standards
+        .iter()
+        .map(|k| {
+            k.setups.iter().map(|s| WaveProblem::new(&s.panels, &s.basis)).collect::<Result<Vec<_>, _>>()
+        })
+        .collect::<Result<_, _>>()?;
     let setup_s = t0.elapsed().as_secs_f64();
     let tol = layout.solve.tolerance;
     let opts = WaveOptions::with_tolerance(tol);
@@ -229,27 +369,50 @@ pub fn run(layout: &Layout, progress: &mut dyn FnMut(usize, usize, &str)) -> Res
         unknowns: problem.unknowns(),
         setup_s,
         medium: setup.medium.describe(),
+        deembedded: standards.iter().flat_map(|k| k.ports.iter().copied()).collect(),
+        standard_lengths: standards.iter().flat_map(|k| k.ports.iter().map(|&p| (p, k.length))).collect(),
     };
+    run.deembedded.sort_unstable();
+    run.standard_lengths.sort_by_key(|&(p, _)| p);
+    let mut gammas: Vec<Option<Complex64>> = vec![None; standards.len()];
     for (i, &f) in freqs.iter().enumerate() {
         progress(i, freqs.len(), &format!("{f:.4e} Hz"));
         let point = (|| -> Result<SweepPoint> {
-            let green = setup.green(f, 0.1 * tol)?;
-            let zs: Option<Vec<Complex64>> = layout.nets.iter().any(|n| n.conductor.is_some()).then(|| {
-                setup
-                    .net_of
+            let solve = solve_at(layout, &setup, &problem, f, &opts)?;
+            let mut warnings = Vec::new();
+            let mut boxes: Vec<Option<PortDiscontinuity>> = vec![None; impedances.len()];
+            let mut feeds = Vec::new();
+            for (ki, (kind, probs)) in standards.iter().zip(&std_problems).enumerate() {
+                let ys = kind
+                    .layouts
                     .iter()
-                    .map(|&net| match &layout.nets[net].conductor {
-                        Some(c) => surface::surface_impedance(f, c.conductivity, c.thickness),
-                        None => Complex64::new(0.0, 0.0),
-                    })
-                    .collect()
-            });
-            let solve = problem.solve(f, green.as_ref(), setup.medium.eta(), zs.as_deref(), &opts, &mut |_| {})?;
-            let s = network::s_from_y(&solve.y, &impedances)?;
-            let z = network::z_from_y(&solve.y).ok();
+                    .zip(&kind.setups)
+                    .zip(probs)
+                    .map(|((l, s), p)| solve_at(l, s, p, f, &opts).map(|r| r.y))
+                    .collect::<Result<Vec<_>>>()?;
+                match deembed::calibrate(&ys[0], &ys[1], kind.length, gammas[ki]) {
+                    Ok(cal) => {
+                        gammas[ki] = Some(cal.gamma);
+                        for &p in &kind.ports {
+                            boxes[p] = Some(cal.port);
+                            feeds.push((p, cal.z0, cal.gamma));
+                        }
+                    }
+                    Err(e) => warnings.push(format!(
+                        "ports {:?} not de-embedded at {f:.6e} Hz: {e}",
+                        kind.ports.iter().map(|&p| run.ports[p].clone()).collect::<Vec<_>>()
+                    )),
+                }
+            }
+            let y = if boxes.iter().any(Option::is_some) {
+                deembed::deembed(&solve.y, &boxes)?
+            } else {
+                solve.y.clone()
+            };
+            let s = network::s_from_y(&y, &impedances)?;
+            let z = network::z_from_y(&y).ok();
             let reciprocity_error = network::reciprocity_error(&s);
             let largest_singular_value = network::largest_singular_value(&s);
-            let mut warnings = Vec::new();
             if reciprocity_error > RECIPROCITY_LIMIT {
                 warnings.push(format!(
                     "not reciprocal at {f:.6e} Hz: ‖S − Sᵀ‖/‖S‖ = {reciprocity_error:.2e} > {RECIPROCITY_LIMIT:e}"
@@ -261,7 +424,18 @@ pub fn run(layout: &Layout, progress: &mut dyn FnMut(usize, usize, &str)) -> Res
                      {PASSIVITY_MARGIN:e}"
                 ));
             }
-            Ok(SweepPoint { frequency_hz: f, y: solve.y.clone(), z, s, solve, reciprocity_error, largest_singular_value, warnings })
+            feeds.sort_by_key(|&(p, _, _)| p);
+            Ok(SweepPoint {
+                frequency_hz: f,
+                y,
+                z,
+                s,
+                solve,
+                reciprocity_error,
+                largest_singular_value,
+                warnings,
+                feed_lines: feeds,
+            })
         })();
         match point {
             Ok(p) => run.points.push(p),
@@ -318,6 +492,11 @@ pub fn json(layout: &Layout, run: &SweepRun) -> serde_json::Value {
         "largest_singular_value": pts.iter().map(|p| p.largest_singular_value).collect::<Vec<_>>(),
         "passive": pts.iter().map(|p| p.largest_singular_value <= 1.0 + PASSIVITY_MARGIN).collect::<Vec<_>>(),
         "warnings": pts.iter().flat_map(|p| p.warnings.clone()).collect::<Vec<_>>(),
+        "deembedded_ports": run.deembedded.iter().map(|&p| run.ports[p].clone()).collect::<Vec<_>>(),
+        "feed_standard_length_m": run.standard_lengths.iter().map(|&(_, l)| l).collect::<Vec<_>>(),
+        "feed_lines": pts.iter().map(|p| p.feed_lines.iter().map(|(port, z0, g)| serde_json::json!({
+            "port": run.ports[*port], "z0_ohm": [z0.re, z0.im], "gamma_per_m": [g.re, g.im]
+        })).collect::<Vec<_>>()).collect::<Vec<_>>(),
         "failed": run.failure.as_ref().map(|(f, e)| serde_json::json!({"frequency_hz": f, "error": e})),
     })
 }
@@ -336,18 +515,32 @@ pub fn write_outputs(mut st: Staging, layout: &Layout, run: &SweepRun) -> Result
         let s: Vec<DenseMatrix<Complex64>> = run
             .points
             .iter()
-            .map(|p| if uniform { Ok(p.s.clone()) } else { network::renormalize(&p.s, &run.impedances, &vec![50.0; n]) })
+            .map(|p| {
+                if uniform {
+                    Ok(p.s.clone())
+                } else {
+                    network::renormalize(&p.s, &run.impedances, &vec![50.0; n])
+                }
+            })
             .collect::<Result<_, _>>()?;
         let mut header = vec![
             format!("{} ({}): S-parameters from rafter sweep", layout.name, layout.file),
             format!("medium: {}", run.medium),
             format!(
                 "ports: {}",
-                run.ports.iter().zip(&run.impedances).map(|(p, z)| format!("{p} ({z} ohm)")).collect::<Vec<_>>().join(", ")
+                run.ports
+                    .iter()
+                    .zip(&run.impedances)
+                    .map(|(p, z)| format!("{p} ({z} ohm)"))
+                    .collect::<Vec<_>>()
+                    .join(", ")
             ),
         ];
         if !uniform {
-            header.push("the ports' reference impedances differ: this file is renormalised to 50 ohm at every port".into());
+            header.push(
+                "the ports' reference impedances differ: this file is renormalised to 50 ohm at every port"
+                    .into(),
+            );
         }
         header.push("engineering estimate: validate critical designs by measurement".into());
         let text = touchstone::touchstone(&freqs, &s, z_ref, touchstone::NumberFormat::RealImag, &header)?;

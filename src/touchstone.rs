@@ -237,7 +237,6 @@ fn sci(x: f64) -> String {
 
 /// What [`parse_touchstone`] returns: frequencies (Hz), one S matrix per frequency, and the
 /// reference resistance (Ω).
-
 pub type TouchstoneData = (Vec<f64>, Vec<DenseMatrix<Complex64>>, f64);
 
 /// Reads back a Touchstone 1.x file of `nports` ports holding S-parameters: returns the
@@ -252,7 +251,7 @@ pub type TouchstoneData = (Vec<f64>, Vec<DenseMatrix<Complex64>>, f64);
 /// # Errors
 /// A message naming the line for: no option line before the data, an unknown option, a
 /// non-number, a number count that is not a whole number of blocks, or `nports` of 0.
- // the writer's check; not (yet) used by the CLI
+// the writer's check; not (yet) used by the CLI
 pub fn parse_touchstone(text: &str, nports: usize) -> Result<TouchstoneData, String> {
     if nports == 0 {
         return Err("Touchstone: a file has at least one port".into());

@@ -9,11 +9,17 @@ const C0: f64 = 299_792_458.0;
 
 fn solve(s: &WaveSetup, p: &WaveProblem<'_>, f: f64, tol: f64) -> FrequencyResult {
     let green = s.green(f, 0.1 * tol).unwrap();
-    let r = p.solve(f, green.as_ref(), s.medium.eta(), None, &WaveOptions::with_tolerance(tol), &mut |_| {}).unwrap();
+    let r = p
+        .solve(f, green.as_ref(), s.medium.eta(), None, &WaveOptions::with_tolerance(tol), &mut |_| {})
+        .unwrap();
     // Reciprocity and passivity hold at every frequency of every structure (the issue's contract).
     let s_mat = network::s_from_y(&r.y, &vec![50.0; r.y.nrows()]).unwrap();
     assert!(network::reciprocity_error(&s_mat) <= 1e-6, "reciprocity {}", network::reciprocity_error(&s_mat));
-    assert!(network::largest_singular_value(&s_mat) <= 1.0 + 1e-6, "passivity {}", network::largest_singular_value(&s_mat));
+    assert!(
+        network::largest_singular_value(&s_mat) <= 1.0 + 1e-6,
+        "passivity {}",
+        network::largest_singular_value(&s_mat)
+    );
     r
 }
 
@@ -78,7 +84,10 @@ tolerance = 1e-5
     let f0 = fb - xb * (fb - fa) / (xb - xa);
     let z0 = zin(f0);
     let (len_lambda, r) = (l * 1e-3 * f0 / C0, z0.re);
-    println!("resonance {f0:.6e} Hz: L/λ = {len_lambda:.5}, Zin = {z0:.3} Ω, w/λ = {:.2e}", w * 1e-3 * f0 / C0);
+    println!(
+        "resonance {f0:.6e} Hz: L/λ = {len_lambda:.5}, Zin = {z0:.3} Ω, w/λ = {:.2e}",
+        w * 1e-3 * f0 / C0
+    );
     assert!((len_lambda - 0.484632).abs() <= 0.02 * 0.484632, "L/λ = {len_lambda}");
     assert!((r - 66.74).abs() <= 0.12 * 66.74, "R = {r}");
 }
@@ -146,5 +155,94 @@ tolerance = 1e-4
             // A capacitor: the real part of Y (loss, radiation) is negligible at 1 MHz.
             assert!(r.y.get(i, j).re.abs() <= 1e-6 * r.y.get(i, j).im.abs());
         }
+    }
+}
+
+/// Complete elliptic integral of the first kind `K(k)` of modulus `k`, by the arithmetic-
+/// geometric mean: `K = π / (2 AGM(1, √(1 − k²)))` (Abramowitz & Stegun, *Handbook of
+/// Mathematical Functions*, 1964, 17.6).
+fn ellip_k(k: f64) -> f64 {
+    let (mut a, mut b) = (1.0f64, (1.0 - k * k).sqrt());
+    for _ in 0..60 {
+        let (an, bn) = (0.5 * (a + b), (a * b).sqrt());
+        a = an;
+        b = bn;
+    }
+    std::f64::consts::PI / (2.0 * a)
+}
+
+/// A uniform stripline (zero-thickness strip centred between grounds spaced b, homogeneous
+/// εr) of length L between two ports to ground, de-embedded: its S-parameters must be those of
+/// an ideal TEM line with Cohn's characteristic impedance
+/// `Z0 = η0/(4√εr) · K(k)/K(k′)`, `k = sech(πw/2b)` (S. B. Cohn, "Characteristic impedance of
+/// the shielded-strip transmission line", IRE Trans. MTT-2, 1954 — from memory, as in
+/// ../shared/references/published-checks.md §3) and phase velocity c/√εr: the phase of S21
+/// within 2 % of the ideal line's and the Z0 extracted from S (W. R. Eisenstadt & Y. Eo,
+/// IEEE Trans. CHMT 15(4), 1992: `Z0² = Zr² ((1+S11)² − S21²)/((1−S11)² − S21²)` — from
+/// memory) within 2 % of Cohn's, at every frequency of the sweep.
+#[test]
+fn deembedded_stripline_is_an_ideal_tem_line() {
+    let text = r#"
+name = "thru"
+units = "mm"
+[stackup]
+layers = [
+  { name = "gnd", kind = "ground" },
+  { name = "lower", kind = "dielectric", thickness = 0.5, eps_r = 4.4 },
+  { name = "upper", kind = "dielectric", thickness = 0.5, eps_r = 4.4 },
+  { name = "top", kind = "ground" },
+]
+[[net]]
+name = "a"
+shapes = [ { rect = { on = "lower", min = [0, -0.2], max = [10, 0.2] } } ]
+[[port]]
+name = "p1"
+net = "a"
+at = [0, 0]
+to = "gnd"
+[[port]]
+name = "p2"
+net = "a"
+at = [10, 0]
+to = "top"
+[mesh]
+max_cell = 0.2
+[solve]
+tolerance = 1e-4
+[sweep]
+start = 1e9
+stop = 1e10
+points = 4
+spacing = "linear"
+"#;
+    let layout = rafter::layout::parse_str(text, "thru.toml").unwrap();
+    let run = rafter::sweep::run(&layout, true, &mut |_, _, _| {}).unwrap();
+    assert!(run.failure.is_none(), "{:?}", run.failure);
+    assert_eq!(run.deembedded, vec![0, 1]);
+    let (w, b, er, len) = (0.4e-3, 1e-3, 4.4f64, 10e-3);
+    let k = 1.0 / (std::f64::consts::PI * w / (2.0 * b)).cosh();
+    let kp = (std::f64::consts::PI * w / (2.0 * b)).tanh();
+    let z0 = 376.730313 / (4.0 * er.sqrt()) * ellip_k(k) / ellip_k(kp);
+    for p in &run.points {
+        assert!(p.warnings.is_empty(), "{:?}", p.warnings);
+        assert!(p.reciprocity_error <= 1e-6 && p.largest_singular_value <= 1.0 + 1e-6);
+        let (s11, s21) = (p.s.get(0, 0), p.s.get(1, 0));
+        let one = Complex64::new(1.0, 0.0);
+        let zx = 50.0 * (((one + s11).powi(2) - s21 * s21) / ((one - s11).powi(2) - s21 * s21)).sqrt();
+        let theta = 2.0 * std::f64::consts::PI * p.frequency_hz * er.sqrt() / C0 * len;
+        let ideal = Complex64::new(2.0 * z0 * 50.0, 0.0)
+            / Complex64::new(2.0 * z0 * 50.0 * theta.cos(), (z0 * z0 + 2500.0) * theta.sin());
+        // Unwrapped phases: the ideal one is continuous in θ, the computed one within π of it.
+        let ideal_phase = -theta + (ideal * Complex64::from_polar(1.0, theta)).arg();
+        let dphi = (s21 / ideal).arg();
+        println!(
+            "{:.3e} Hz: Z0 {:.3} (Cohn {z0:.3}), phase {:.4} vs {:.4} rad",
+            p.frequency_hz,
+            zx.re,
+            ideal_phase + dphi,
+            ideal_phase
+        );
+        assert!((zx.re - z0).abs() <= 0.02 * z0, "Z0 {zx} vs {z0}");
+        assert!(dphi.abs() <= 0.02 * ideal_phase.abs(), "phase off by {dphi} of {ideal_phase}");
     }
 }

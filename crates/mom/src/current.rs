@@ -197,7 +197,9 @@ fn half_on(panels: &[Panel], panel: usize, ends: [[f64; 2]; 2], sign: f64) -> Cu
     let same = |a: [f64; 2], b: [f64; 2]| a[0] == b[0] && a[1] == b[1];
     let side = panel_edges(&panels[panel])
         .into_iter()
-        .find(|(e, _)| (same(e[0], ends[0]) && same(e[1], ends[1])) || (same(e[0], ends[1]) && same(e[1], ends[0])))
+        .find(|(e, _)| {
+            (same(e[0], ends[0]) && same(e[1], ends[1])) || (same(e[0], ends[1]) && same(e[1], ends[0]))
+        })
         .map(|(_, s)| s)
         .expect("a boundary edge is an edge of its panel");
     CurrentHalf { panel, area: panels[panel].area(), side, sign }
@@ -220,7 +222,12 @@ pub fn current_basis(
             mid: [0.5 * (f.ends[0][0] + f.ends[1][0]), 0.5 * (f.ends[0][1] + f.ends[1][1])],
             halves: [
                 Some(CurrentHalf { panel: f.plus.panel, area: f.plus.area, side: f.plus.side, sign: 1.0 }),
-                Some(CurrentHalf { panel: f.minus.panel, area: f.minus.area, side: f.minus.side, sign: -1.0 }),
+                Some(CurrentHalf {
+                    panel: f.minus.panel,
+                    area: f.minus.area,
+                    side: f.minus.side,
+                    sign: -1.0,
+                }),
             ],
         })
         .collect();
@@ -253,7 +260,9 @@ pub fn current_basis(
             .boundary
             .iter()
             .enumerate()
-            .filter(|(_, b)| on_face(b, feed.net) && off_line(b.ends[0]) <= line_tol && off_line(b.ends[1]) <= line_tol)
+            .filter(|(_, b)| {
+                on_face(b, feed.net) && off_line(b.ends[0]) <= line_tol && off_line(b.ends[1]) <= line_tol
+            })
             .map(|(i, _)| i)
             .collect();
         // Grow the connected run from `start` along the line.
@@ -286,7 +295,10 @@ pub fn current_basis(
         let mut mine = Vec::with_capacity(run.len());
         for &i in &run {
             if let Some(other) = owner[i] {
-                return Err(FeedError::Shared { first: feeds[other].name.clone(), second: feed.name.clone() });
+                return Err(FeedError::Shared {
+                    first: feeds[other].name.clone(),
+                    second: feed.name.clone(),
+                });
             }
             owner[i] = Some(pi);
             let b = edges.boundary[i];
@@ -307,21 +319,31 @@ pub fn current_basis(
                             let lc = norm(sub(c.ends[1], c.ends[0]));
                             let e = sub(c.ends[1], c.ends[0]);
                             let cross = (e[0] * dir[1] - e[1] * dir[0]).abs() / lc;
-                            let m = [0.5 * (c.ends[0][0] + c.ends[1][0]), 0.5 * (c.ends[0][1] + c.ends[1][1])];
+                            let m =
+                                [0.5 * (c.ends[0][0] + c.ends[1][0]), 0.5 * (c.ends[0][1] + c.ends[1][1])];
                             cross <= 1e-9
                                 && (lc - length).abs() <= 1e-6 * length
                                 && (dot(sub(m, mid), dir)).abs() <= 1e-6 * length
                         })
                         .min_by(|x, y| {
                             let d = |c: &crate::edges::BoundaryEdge| {
-                                norm(sub([0.5 * (c.ends[0][0] + c.ends[1][0]), 0.5 * (c.ends[0][1] + c.ends[1][1])], mid))
+                                norm(sub(
+                                    [
+                                        0.5 * (c.ends[0][0] + c.ends[1][0]),
+                                        0.5 * (c.ends[0][1] + c.ends[1][1]),
+                                    ],
+                                    mid,
+                                ))
                             };
                             d(x.1).total_cmp(&d(y.1))
                         })
                         .map(|(j, _)| j)
                         .ok_or(FeedError::NoFacingEdge { port: feed.name.clone(), at: mid })?;
                     if let Some(o) = owner[facing] {
-                        return Err(FeedError::Shared { first: feeds[o].name.clone(), second: feed.name.clone() });
+                        return Err(FeedError::Shared {
+                            first: feeds[o].name.clone(),
+                            second: feed.name.clone(),
+                        });
                     }
                     owner[facing] = Some(pi);
                     let c = edges.boundary[facing];

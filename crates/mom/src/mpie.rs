@@ -336,8 +336,8 @@ impl<'a> Interactions<'a> {
                 for c in 0..2 {
                     m.k10[c] += s0 * (w * a[c]);
                     m.k01[c] += s1[c] * w;
-                    for e in 0..2 {
-                        m.k11[c][e] += s1[e] * (w * a[c]);
+                    for (k11, s1e) in m.k11[c].iter_mut().zip(&s1) {
+                        *k11 += s1e * (w * a[c]);
                     }
                 }
             }
@@ -353,8 +353,8 @@ fn accumulate(m: &mut PairMoments, g: C, a: [f64; 2], b: [f64; 2], first_order: 
         for c in 0..2 {
             m.k10[c] += g * a[c];
             m.k01[c] += g * b[c];
-            for e in 0..2 {
-                m.k11[c][e] += g * (a[c] * b[e]);
+            for (k11, be) in m.k11[c].iter_mut().zip(&b) {
+                *k11 += g * (a[c] * be);
             }
         }
     }
@@ -363,7 +363,13 @@ fn accumulate(m: &mut PairMoments, g: C, a: [f64; 2], b: [f64; 2], first_order: 
 /// `∫∫ f_m·f_n G` of two linear halves from their pair's moments: with `f = M (r − o)`,
 /// `∫∫ (r − o_m)ᵀ M_mᵀ M_n (r′ − o_n) G`, expanded about the centroids.
 #[inline]
-fn combine(mm: &([f64; 4], [f64; 2]), cp: [f64; 3], mn: &([f64; 4], [f64; 2]), cq: [f64; 3], k: &PairMoments) -> C {
+fn combine(
+    mm: &([f64; 4], [f64; 2]),
+    cp: [f64; 3],
+    mn: &([f64; 4], [f64; 2]),
+    cq: [f64; 3],
+    k: &PairMoments,
+) -> C {
     let (a, oa) = mm;
     let (b, ob) = mn;
     // T = Aᵀ B (2×2, row-major).
@@ -407,7 +413,13 @@ impl<'a> VectorPotential<'a> {
             let lm = fm.linear(hm);
             for hn in fn_.iter() {
                 let k = pair(hm.panel, hn.panel);
-                s += combine(&lm, self.inter.centres[hm.panel], &fn_.linear(hn), self.inter.centres[hn.panel], &k);
+                s += combine(
+                    &lm,
+                    self.inter.centres[hm.panel],
+                    &fn_.linear(hn),
+                    self.inter.centres[hn.panel],
+                    &k,
+                );
             }
         }
         s
@@ -429,8 +441,9 @@ impl EntrySource<C> for VectorPotential<'_> {
         let m = rows.len();
         for (b, &j) in cols.iter().enumerate() {
             for (a, &i) in rows.iter().enumerate() {
-                out[a + b * m] =
-                    self.entry_with(i, j, &mut |p, q| *cache.entry((p, q)).or_insert_with(|| self.inter.moments(p, q, true)));
+                out[a + b * m] = self.entry_with(i, j, &mut |p, q| {
+                    *cache.entry((p, q)).or_insert_with(|| self.inter.moments(p, q, true))
+                });
             }
         }
     }
@@ -461,4 +474,3 @@ impl EntrySource<C> for ScalarPotential<'_> {
         self.inter.moments(p, q, false).k00 / (self.area[p] * self.area[q])
     }
 }
-

@@ -76,13 +76,13 @@ impl StarProjector {
         let mut pinned_root = vec![false; panels];
         let mut reduced = vec![None; panels];
         let mut next = 0;
-        for p in 0..panels {
+        for (p, slot) in reduced.iter_mut().enumerate() {
             let r = find(&mut parent, p);
             if !grounded[r] && !pinned_root[r] {
                 pinned_root[r] = true;
                 continue;
             }
-            reduced[p] = Some(next);
+            *slot = Some(next);
             next += 1;
         }
         let mut acc: HashMap<(usize, usize), f64> = HashMap::new();
@@ -92,10 +92,10 @@ impl StarProjector {
                 for b in 0..c {
                     let (pa, va) = rows[n][a];
                     let (pb, vb) = rows[n][b];
-                    if let (Some(ia), Some(ib)) = (reduced[pa], reduced[pb]) {
-                        if ia >= ib {
-                            *acc.entry((ia, ib)).or_insert(0.0) += va * vb;
-                        }
+                    if let (Some(ia), Some(ib)) = (reduced[pa], reduced[pb])
+                        && ia >= ib
+                    {
+                        *acc.entry((ia, ib)).or_insert(0.0) += va * vb;
                     }
                 }
             }
@@ -106,7 +106,9 @@ impl StarProjector {
             let m = SparseColMat::<usize, f64>::try_new_from_triplets(next, next, &triplets)
                 .map_err(|e| MomError::Input(format!("star projector: building DᵀD failed ({e:?})")))?;
             Some(m.sp_cholesky(faer::Side::Lower).map_err(|e| {
-                MomError::Input(format!("star projector: DᵀD is not positive definite ({e:?}); is the mesh degenerate?"))
+                MomError::Input(format!(
+                    "star projector: DᵀD is not positive definite ({e:?}); is the mesh degenerate?"
+                ))
             })?)
         } else {
             None

@@ -208,8 +208,11 @@ impl<'a> WaveProblem<'a> {
         }
         let ba = BlockDiagonal::new(self.basis.functions.len(), blocks)?;
         let pc = Precond { ba, bp: p.block_jacobi()?, proj: &self.projector, ell };
-        let rhs: Vec<Vec<C>> =
-            self.ports.iter().map(|u| apply_s(&self.projector, alpha, u).into_iter().map(|v| v / eta).collect()).collect();
+        let rhs: Vec<Vec<C>> = self
+            .ports
+            .iter()
+            .map(|u| apply_s(&self.projector, alpha, u).into_iter().map(|v| v / eta).collect())
+            .collect();
         let t1 = Instant::now();
         let solved = solve_many(&op, &pc, &rhs, &opts.gmres, &mut |_, _, _| {})?;
         // Stationary admittances.
