@@ -216,7 +216,7 @@ points = 4
 spacing = "linear"
 "#;
     let layout = rafter::layout::parse_str(text, "thru.toml").unwrap();
-    let run = rafter::sweep::run(&layout, true, &mut |_, _, _| {}).unwrap();
+    let run = rafter::sweep::run(&layout, true, None, &mut |_, _, _| {}).unwrap();
     assert!(run.failure.is_none(), "{:?}", run.failure);
     assert_eq!(run.deembedded, vec![0, 1]);
     let (w, b, er, len) = (0.4e-3, 1e-3, 4.4f64, 10e-3);
