@@ -153,7 +153,9 @@ fn run(cli: Cli) -> anyhow::Result<()> {
             };
             run_extract(&layout, &out, dense, &pictures, cli.quiet)
         }
-        Command::Sweep { layout, out, raw, currents_at } => run_sweep(&layout, &out, !raw, currents_at, cli.quiet),
+        Command::Sweep { layout, out, raw, currents_at } => {
+            run_sweep(&layout, &out, !raw, currents_at, cli.quiet)
+        }
         Command::Verify { layout, out, tolerances, max_error, vectors } => {
             run_verify(&layout, out.as_deref(), tolerances.as_deref(), max_error, vectors, cli.quiet)
         }

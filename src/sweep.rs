@@ -240,7 +240,8 @@ pub fn current_pictures(
             p.frequency_hz / 1e9,
             port.name
         );
-        let pic = crate::pictures::current_density(&setup.cells, &mag, layout.unit_m, &layout.unit_name, &title)?;
+        let pic =
+            crate::pictures::current_density(&setup.cells, &mag, layout.unit_m, &layout.unit_name, &title)?;
         out.push((format!("current-{}", port.name), pic));
     }
     Ok(out)
