@@ -59,6 +59,11 @@ pub trait WaveGreen: Sync {
     fn smooth(&self, rho: f64, z_obs: f64, z_src: f64) -> Option<C>;
     /// `G(r, r′)` (1/m).
     fn total(&self, r: [f64; 3], rs: [f64; 3]) -> C;
+    /// Height of the single ground plane whose port feeds carry their vertical current
+    /// ([`crate::feedwall`]); `None` when feeds carry none (no ground, or two grounds).
+    fn feed_ground(&self) -> Option<f64> {
+        None
+    }
 }
 
 /// Perfectly conducting planes bounding a homogeneous medium.
@@ -93,6 +98,12 @@ impl WaveGreen for ImageGreen {
         match self.planes {
             Planes::Open => ([(1.0, z_src), (0.0, 0.0), (0.0, 0.0)], 1),
             Planes::Below(zg) => ([(1.0, z_src), (-1.0, 2.0 * zg - z_src), (0.0, 0.0)], 2),
+        }
+    }
+    fn feed_ground(&self) -> Option<f64> {
+        match self.planes {
+            Planes::Below(z) => Some(z),
+            Planes::Open => None,
         }
     }
     fn smooth(&self, _rho: f64, _z_obs: f64, _z_src: f64) -> Option<C> {
@@ -398,12 +409,22 @@ fn combine(
 pub struct VectorPotential<'a> {
     inter: &'a Interactions<'a>,
     basis: &'a CurrentBasis,
+    walls: Option<&'a crate::feedwall::FeedWalls>,
 }
 
 impl<'a> VectorPotential<'a> {
     /// Over `basis` with the panel integration `inter`.
     pub fn new(inter: &'a Interactions<'a>, basis: &'a CurrentBasis) -> Self {
-        Self { inter, basis }
+        Self { inter, basis, walls: None }
+    }
+
+    /// As [`VectorPotential::new`], plus the vertical currents of the ground feeds.
+    pub fn with_walls(
+        inter: &'a Interactions<'a>,
+        basis: &'a CurrentBasis,
+        walls: Option<&'a crate::feedwall::FeedWalls>,
+    ) -> Self {
+        Self { inter, basis, walls }
     }
 
     fn entry_with(&self, m: usize, n: usize, pair: &mut impl FnMut(usize, usize) -> PairMoments) -> C {
@@ -421,6 +442,9 @@ impl<'a> VectorPotential<'a> {
                     &k,
                 );
             }
+        }
+        if let Some(w) = self.walls {
+            s += w.interaction(m, n);
         }
         s
     }

@@ -161,7 +161,8 @@ impl<'a> WaveProblem<'a> {
         let t0 = Instant::now();
         let k = green.k();
         let inter = Interactions::new(self.panels, green, opts.hmatrix.tolerance);
-        let asrc = VectorPotential::new(&inter, self.basis);
+        let walls = green.feed_ground().map(|zg| crate::feedwall::FeedWalls::new(self.basis, zg, k));
+        let asrc = VectorPotential::with_walls(&inter, self.basis, walls.as_ref());
         let psrc = ScalarPotential::new(&inter);
         let ell = balance_length(&asrc, &psrc, self.basis);
         progress("vector potential");
