@@ -362,3 +362,53 @@ tolerance = 1e-5
         }
     }
 }
+
+/// Conductor loss at low frequency: a copper strip (σ = 5.8e7 S/m, t = 17 µm, far thinner than
+/// the skin depth at 1 kHz) between two ports to ground is a series resistor of Ohm's-law value
+/// `R = L/(σ w t)` (the DC limit of the slab surface impedance, `Z_s → 1/(σt)`), plus a small
+/// inductive reactance; the current loop closes through the ground — a loop that the
+/// low-frequency rescaling must carry. Required: within 0.1 %.
+#[test]
+fn low_frequency_series_resistance_is_ohms_law() {
+    let text = r#"
+name = "copper-thru"
+units = "mm"
+[stackup]
+layers = [
+  { name = "gnd", kind = "ground" },
+  { name = "lower", kind = "dielectric", thickness = 0.5, eps_r = 4.4 },
+  { name = "upper", kind = "dielectric", thickness = 0.5, eps_r = 4.4 },
+  { name = "top", kind = "ground" },
+]
+[[net]]
+name = "a"
+shapes = [ { rect = { on = "lower", min = [0, -0.2], max = [10, 0.2] } } ]
+conductivity = 5.8e7
+thickness = 0.017
+[[port]]
+name = "p1"
+net = "a"
+at = [0, 0]
+to = "gnd"
+[[port]]
+name = "p2"
+net = "a"
+at = [10, 0]
+to = "gnd"
+[mesh]
+max_cell = 0.2
+[sweep]
+start = 1e3
+stop = 1e3
+points = 1
+"#;
+    let layout = rafter::layout::parse_str(text, "copper.toml").unwrap();
+    let run = rafter::sweep::run(&layout, false, None, &mut |_, _, _| {}).unwrap();
+    let p = &run.points[0];
+    assert!(p.reciprocity_error <= 1e-6 && p.largest_singular_value <= 1.0 + 1e-6);
+    let z = -1.0 / p.y.get(1, 0);
+    let r_dc = 10e-3 / (5.8e7 * 0.4e-3 * 17e-6);
+    println!("series impedance {z:.6e} Ω, Ohm's law {r_dc:.6e} Ω");
+    assert!((z.re - r_dc).abs() <= 1e-3 * r_dc, "{} vs {r_dc}", z.re);
+    assert!(z.im > 0.0 && z.im < z.re, "inductive and small at 1 kHz: {z}");
+}
