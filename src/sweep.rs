@@ -121,10 +121,6 @@ impl WaveSetup {
 
 /// Meshes `layout` and builds its full-wave basis.
 pub fn setup(layout: &Layout) -> Result<WaveSetup> {
-    setup_of(layout)
-}
-
-fn setup_of(layout: &Layout) -> Result<WaveSetup> {
     let medium = Medium::of(layout)?;
     if layout.ports.is_empty() {
         bail!(
@@ -290,21 +286,21 @@ pub struct FeedStandard {
 
 /// Ground ports grouped by kind, each with its two standards; ports on sides that are not
 /// straight strip ends, and differential ports, are left as they are (not de-embedded).
-fn feed_standards(layout: &Layout, setup: &WaveSetup, f_max: f64) -> Result<Vec<FeedStandard>> {
+fn feed_standards(layout: &Layout, ws: &WaveSetup, f_max: f64) -> Result<Vec<FeedStandard>> {
     let mut kinds: Vec<FeedStandard> = Vec::new();
     // Longest standard: a quarter wavelength at the top frequency keeps βl < π/2 for `l` and
     // βl < π for `2l` (the calibration is undefined at half a wavelength).
-    let lambda_min = C0 / (f_max * setup.medium.eps_r.sqrt());
-    let thickness = match setup.medium.grounds {
+    let lambda_min = C0 / (f_max * ws.medium.eps_r.sqrt());
+    let thickness = match ws.medium.grounds {
         (Some(a), Some(b)) => b - a,
-        (Some(a), None) => setup.heights.iter().map(|z| z - a).fold(0.0, f64::max),
+        (Some(a), None) => ws.heights.iter().map(|z| z - a).fold(0.0, f64::max),
         _ => 0.0,
     };
     for (i, port) in layout.ports.iter().enumerate() {
         if !matches!(port.to, PortReference::Ground(_)) {
             continue;
         }
-        let width: f64 = setup.basis.ports[i].iter().map(|&n| setup.basis.functions[n].length).sum();
+        let width: f64 = ws.basis.ports[i].iter().map(|&n| ws.basis.functions[n].length).sum();
         let conductor = layout.nets[port.net].conductor;
         if let Some(k) = kinds.iter_mut().find(|k| {
             let p0 = &layout.ports[k.ports[0]];
@@ -348,7 +344,7 @@ fn feed_standards(layout: &Layout, setup: &WaveSetup, f_max: f64) -> Result<Vec<
         let layouts = [make(length), make(2.0 * length)];
         let setups = layouts
             .iter()
-            .map(setup_of)
+            .map(setup)
             .collect::<Result<Vec<_>>>()
             .with_context(|| format!("port '{}': its feed-line standards", port.name))?;
         kinds.push(FeedStandard { ports: vec![i], width, length, layouts, setups });

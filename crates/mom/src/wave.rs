@@ -90,7 +90,8 @@ pub struct FrequencyResult {
     pub seconds: [f64; 3],
     /// The balance length ℓ (m).
     pub balance_length: f64,
-    /// Solutions `x` of the scaled system per port (for current pictures: `I = S x`).
+    /// Per port, the current coefficients `I = S x` (A/m per function) with 1 V across that
+    /// port and the other ports shorted (for current pictures; empty when dropped).
     pub currents: Vec<Vec<C>>,
 }
 
@@ -139,10 +140,6 @@ impl<'a> WaveProblem<'a> {
         &self.projector
     }
 
-    /// Currents `I = S x` (A/m per function) from a solution of the scaled system.
-    pub fn currents(&self, x: &[C], alpha: C) -> Vec<C> {
-        apply_s(&self.projector, alpha, x)
-    }
 
     /// Solves at `frequency_hz` with the kernel `green` (wavenumber `green.k()`) of a medium of
     /// wave impedance `eta` (Ω). `progress(stage)` reports the stages.
