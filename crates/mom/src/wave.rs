@@ -140,7 +140,6 @@ impl<'a> WaveProblem<'a> {
         &self.projector
     }
 
-
     /// Solves at `frequency_hz` with the kernel `green` (wavenumber `green.k()`) of a medium of
     /// wave impedance `eta` (Ω). `progress(stage)` reports the stages.
     ///
