@@ -49,6 +49,10 @@ enum Command {
         /// Keep the port discontinuities: skip de-embedding the ports to ground.
         #[arg(long)]
         raw: bool,
+        /// Also draw the surface current |J| per port (current-PORT.svg/.png) at the sweep
+        /// frequency nearest to this one (Hz).
+        #[arg(long, value_name = "HZ")]
+        currents_at: Option<f64>,
     },
     /// Extract the capacitance matrix of a layout (TOML); writes capacitance.json, .csv and .cir.
     Extract {
@@ -149,7 +153,9 @@ fn run(cli: Cli) -> anyhow::Result<()> {
             };
             run_extract(&layout, &out, dense, &pictures, cli.quiet)
         }
-        Command::Sweep { layout, out, raw } => run_sweep(&layout, &out, !raw, cli.quiet),
+        Command::Sweep { layout, out, raw, currents_at } => {
+            run_sweep(&layout, &out, !raw, currents_at, cli.quiet)
+        }
         Command::Verify { layout, out, tolerances, max_error, vectors } => {
             run_verify(&layout, out.as_deref(), tolerances.as_deref(), max_error, vectors, cli.quiet)
         }
@@ -422,8 +428,14 @@ fn run_sweep(
     path: &std::path::Path,
     out: &std::path::Path,
     deembed: bool,
+    currents_at: Option<f64>,
     quiet: bool,
 ) -> anyhow::Result<()> {
+    if let Some(f) = currents_at
+        && !(f.is_finite() && f > 0.0)
+    {
+        anyhow::bail!("--currents-at: {f} must be a positive frequency in Hz (hint: e.g. --currents-at 5e9)");
+    }
     let t = Instant::now();
     let layout = rafter::layout::load(path)?;
     if layout.sweep.is_none() || layout.ports.is_empty() {
@@ -449,7 +461,7 @@ fn run_sweep(
             b.set_message(msg.to_string());
         }
     };
-    let run = rafter::sweep::run(&layout, deembed, &mut progress);
+    let run = rafter::sweep::run(&layout, deembed, currents_at, &mut progress);
     if let Some(b) = &bar {
         b.finish_and_clear();
     }

@@ -106,6 +106,8 @@ pub struct WaveSetup {
     pub medium: Medium,
     /// Distinct conductor heights (m).
     pub heights: Vec<f64>,
+    /// The mesh cells (one per panel, same order), for pictures.
+    pub cells: Vec<rafter_layout::Cell>,
     /// Diagonal of the conductors' bounding box (m).
     pub extent: f64,
 }
@@ -119,10 +121,6 @@ impl WaveSetup {
 
 /// Meshes `layout` and builds its full-wave basis.
 pub fn setup(layout: &Layout) -> Result<WaveSetup> {
-    setup_of(layout)
-}
-
-fn setup_of(layout: &Layout) -> Result<WaveSetup> {
     let medium = Medium::of(layout)?;
     if layout.ports.is_empty() {
         bail!(
@@ -165,7 +163,7 @@ fn setup_of(layout: &Layout) -> Result<WaveSetup> {
         }
     }
     let extent = (hi[0] - lo[0]).hypot(hi[1] - lo[1]);
-    Ok(WaveSetup { panels, net_of, basis, medium, heights, extent })
+    Ok(WaveSetup { panels, net_of, basis, medium, heights, extent, cells: mesh.cells })
 }
 
 /// Largest relative asymmetry `‖S − Sᵀ‖_F/‖S‖_F` accepted as reciprocal.
@@ -216,6 +214,33 @@ pub struct SweepRun {
     pub deembedded: Vec<usize>,
     /// `(port, l)`: the feed-line standard length (m) per de-embedded port.
     pub standard_lengths: Vec<(usize, f64)>,
+    /// Surface-current pictures `(file stem, picture)` at the requested frequency.
+    pub pictures: Vec<(String, crate::pictures::Rendered)>,
+}
+
+/// One |J| picture per port at the frequency of `p`: the surface current with 1 V across that
+/// port and every other port shorted (the excitation of the admittance matrix, before
+/// de-embedding).
+pub fn current_pictures(
+    layout: &Layout,
+    setup: &WaveSetup,
+    p: &SweepPoint,
+) -> Result<Vec<(String, crate::pictures::Rendered)>> {
+    let mut out = Vec::new();
+    for (port, coeffs) in layout.ports.iter().zip(&p.solve.currents) {
+        let j = rafter_mom::current_map::panel_currents(&setup.basis, &setup.panels, coeffs)?;
+        let mag: Vec<f64> = j.iter().map(rafter_mom::current_map::magnitude).collect();
+        let title = format!(
+            "{}: |J| at {:.4} GHz, 1 V at port {} (others shorted)",
+            layout.name,
+            p.frequency_hz / 1e9,
+            port.name
+        );
+        let pic =
+            crate::pictures::current_density(&setup.cells, &mag, layout.unit_m, &layout.unit_name, &title)?;
+        out.push((format!("current-{}", port.name), pic));
+    }
+    Ok(out)
 }
 
 /// `Z_s` per panel of a setup at `f` (`None` when every net is a perfect conductor).
@@ -261,21 +286,21 @@ pub struct FeedStandard {
 
 /// Ground ports grouped by kind, each with its two standards; ports on sides that are not
 /// straight strip ends, and differential ports, are left as they are (not de-embedded).
-fn feed_standards(layout: &Layout, setup: &WaveSetup, f_max: f64) -> Result<Vec<FeedStandard>> {
+fn feed_standards(layout: &Layout, ws: &WaveSetup, f_max: f64) -> Result<Vec<FeedStandard>> {
     let mut kinds: Vec<FeedStandard> = Vec::new();
     // Longest standard: a quarter wavelength at the top frequency keeps βl < π/2 for `l` and
     // βl < π for `2l` (the calibration is undefined at half a wavelength).
-    let lambda_min = C0 / (f_max * setup.medium.eps_r.sqrt());
-    let thickness = match setup.medium.grounds {
+    let lambda_min = C0 / (f_max * ws.medium.eps_r.sqrt());
+    let thickness = match ws.medium.grounds {
         (Some(a), Some(b)) => b - a,
-        (Some(a), None) => setup.heights.iter().map(|z| z - a).fold(0.0, f64::max),
+        (Some(a), None) => ws.heights.iter().map(|z| z - a).fold(0.0, f64::max),
         _ => 0.0,
     };
     for (i, port) in layout.ports.iter().enumerate() {
         if !matches!(port.to, PortReference::Ground(_)) {
             continue;
         }
-        let width: f64 = setup.basis.ports[i].iter().map(|&n| setup.basis.functions[n].length).sum();
+        let width: f64 = ws.basis.ports[i].iter().map(|&n| ws.basis.functions[n].length).sum();
         let conductor = layout.nets[port.net].conductor;
         if let Some(k) = kinds.iter_mut().find(|k| {
             let p0 = &layout.ports[k.ports[0]];
@@ -319,7 +344,7 @@ fn feed_standards(layout: &Layout, setup: &WaveSetup, f_max: f64) -> Result<Vec<
         let layouts = [make(length), make(2.0 * length)];
         let setups = layouts
             .iter()
-            .map(setup_of)
+            .map(setup)
             .collect::<Result<Vec<_>>>()
             .with_context(|| format!("port '{}': its feed-line standards", port.name))?;
         kinds.push(FeedStandard { ports: vec![i], width, length, layouts, setups });
@@ -334,7 +359,15 @@ fn feed_standards(layout: &Layout, setup: &WaveSetup, f_max: f64) -> Result<Vec<
 /// With `deembed`, every port to a ground has its port discontinuity removed at every
 /// frequency ([`rafter_mom::deembed`]): its feed line's two standards are solved at the same
 /// frequency and tolerance, and the admittances are de-embedded before `S` and `Z` are formed.
-pub fn run(layout: &Layout, deembed: bool, progress: &mut dyn FnMut(usize, usize, &str)) -> Result<SweepRun> {
+///
+/// `currents_at` keeps the surface currents of the frequency nearest to it for pictures
+/// ([`current_pictures`]); the other frequencies drop theirs.
+pub fn run(
+    layout: &Layout,
+    deembed: bool,
+    currents_at: Option<f64>,
+    progress: &mut dyn FnMut(usize, usize, &str),
+) -> Result<SweepRun> {
     let t0 = Instant::now();
     let Some(sweep) = &layout.sweep else {
         bail!(
@@ -343,6 +376,9 @@ pub fn run(layout: &Layout, deembed: bool, progress: &mut dyn FnMut(usize, usize
         );
     };
     let freqs = sweep.frequencies();
+    let keep = currents_at.map(|fc| {
+        (0..freqs.len()).min_by(|&a, &b| (freqs[a] - fc).abs().total_cmp(&(freqs[b] - fc).abs())).unwrap_or(0)
+    });
     progress(0, freqs.len(), "meshing and preparing the current basis");
     let setup = setup(layout)?;
     let problem = WaveProblem::new(&setup.panels, &setup.basis).with_context(|| layout.file.clone())?;
@@ -371,6 +407,7 @@ pub fn run(layout: &Layout, deembed: bool, progress: &mut dyn FnMut(usize, usize
         medium: setup.medium.describe(),
         deembedded: standards.iter().flat_map(|k| k.ports.iter().copied()).collect(),
         standard_lengths: standards.iter().flat_map(|k| k.ports.iter().map(|&p| (p, k.length))).collect(),
+        pictures: Vec::new(),
     };
     run.deembedded.sort_unstable();
     run.standard_lengths.sort_by_key(|&(p, _)| p);
@@ -378,7 +415,10 @@ pub fn run(layout: &Layout, deembed: bool, progress: &mut dyn FnMut(usize, usize
     for (i, &f) in freqs.iter().enumerate() {
         progress(i, freqs.len(), &format!("{f:.4e} Hz"));
         let point = (|| -> Result<SweepPoint> {
-            let solve = solve_at(layout, &setup, &problem, f, &opts)?;
+            let mut solve = solve_at(layout, &setup, &problem, f, &opts)?;
+            if keep != Some(i) {
+                solve.currents = Vec::new();
+            }
             let mut warnings = Vec::new();
             let mut boxes: Vec<Option<PortDiscontinuity>> = vec![None; impedances.len()];
             let mut feeds = Vec::new();
@@ -438,7 +478,12 @@ pub fn run(layout: &Layout, deembed: bool, progress: &mut dyn FnMut(usize, usize
             })
         })();
         match point {
-            Ok(p) => run.points.push(p),
+            Ok(p) => {
+                if keep == Some(i) {
+                    run.pictures = current_pictures(layout, &setup, &p)?;
+                }
+                run.points.push(p)
+            }
             Err(e) => {
                 run.failure = Some((f, format!("{e:#}")));
                 break;
@@ -553,6 +598,10 @@ pub fn write_outputs(mut st: Staging, layout: &Layout, run: &SweepRun) -> Result
         )?;
         st.add("sparams.svg", pic.svg.as_bytes())?;
         st.add("sparams.png", &pic.png)?;
+    }
+    for (stem, pic) in &run.pictures {
+        st.add(&format!("{stem}.svg"), pic.svg.as_bytes())?;
+        st.add(&format!("{stem}.png"), &pic.png)?;
     }
     st.commit()?;
     Ok(name)

@@ -421,8 +421,10 @@ fn refuses_non_square_sources_and_wrong_point_counts() {
     ));
 }
 
-/// A square source that is not symmetric, `A[i, j] = i + 2j`.
+/// A square source that is not symmetric, `A[i, j] = i + 2j` (for the debug-build check).
+#[cfg(debug_assertions)]
 struct Skewed;
+#[cfg(debug_assertions)]
 impl EntrySource<f64> for Skewed {
     fn nrows(&self) -> usize {
         4

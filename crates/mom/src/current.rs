@@ -47,6 +47,8 @@ pub struct CurrentFunction {
     pub z: f64,
     /// Midpoint of the edge (m): the function's point for clustering.
     pub mid: [f64; 2],
+    /// End points of the edge (m).
+    pub ends: [[f64; 2]; 2],
     /// The halves; `halves[1]` is `None` for a ground feed.
     pub halves: [Option<CurrentHalf>; 2],
 }
@@ -220,6 +222,7 @@ pub fn current_basis(
             length: f.length,
             z: f.z,
             mid: [0.5 * (f.ends[0][0] + f.ends[1][0]), 0.5 * (f.ends[0][1] + f.ends[1][1])],
+            ends: f.ends,
             halves: [
                 Some(CurrentHalf { panel: f.plus.panel, area: f.plus.area, side: f.plus.side, sign: 1.0 }),
                 Some(CurrentHalf {
@@ -351,7 +354,13 @@ pub fn current_basis(
                 }
             };
             mine.push(functions.len());
-            functions.push(CurrentFunction { length, z: b.z, mid, halves: [Some(enter), leave] });
+            functions.push(CurrentFunction {
+                length,
+                z: b.z,
+                mid,
+                ends: b.ends,
+                halves: [Some(enter), leave],
+            });
         }
         ports.push(mine);
     }

@@ -18,6 +18,7 @@ pub mod current;
 pub mod current_map;
 pub mod deembed;
 pub mod edges;
+pub mod feedwall;
 pub mod mpie;
 pub mod network;
 pub mod projector;

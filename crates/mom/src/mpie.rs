@@ -106,6 +106,11 @@ pub trait WaveGreen: Sync {
     fn variation_rate(&self) -> f64 {
         self.k().norm()
     }
+    /// Height of the single ground plane whose port feeds carry their vertical current
+    /// ([`crate::feedwall`]); `None` when feeds carry none (no ground, or two grounds).
+    fn feed_ground(&self) -> Option<f64> {
+        None
+    }
 }
 
 /// Perfectly conducting planes bounding a homogeneous medium.
@@ -151,6 +156,12 @@ impl WaveGreen for ImageGreen {
         match self.planes {
             Planes::Open => ([(1.0, z_src), (0.0, 0.0), (0.0, 0.0)], 1),
             Planes::Below(zg) => ([(1.0, z_src), (-1.0, 2.0 * zg - z_src), (0.0, 0.0)], 2),
+        }
+    }
+    fn feed_ground(&self) -> Option<f64> {
+        match self.planes {
+            Planes::Below(z) => Some(z),
+            Planes::Open => None,
         }
     }
     fn smooth(&self, _rho: f64, _z_obs: f64, _z_src: f64) -> Option<C> {
@@ -941,12 +952,22 @@ fn combine(
 pub struct VectorPotential<'a> {
     inter: &'a Interactions<'a>,
     basis: &'a CurrentBasis,
+    walls: Option<&'a crate::feedwall::FeedWalls>,
 }
 
 impl<'a> VectorPotential<'a> {
     /// Over `basis` with the panel integration `inter`.
     pub fn new(inter: &'a Interactions<'a>, basis: &'a CurrentBasis) -> Self {
-        Self { inter, basis }
+        Self { inter, basis, walls: None }
+    }
+
+    /// As [`VectorPotential::new`], plus the vertical currents of the ground feeds.
+    pub fn with_walls(
+        inter: &'a Interactions<'a>,
+        basis: &'a CurrentBasis,
+        walls: Option<&'a crate::feedwall::FeedWalls>,
+    ) -> Self {
+        Self { inter, basis, walls }
     }
 
     fn entry_with(&self, m: usize, n: usize, pair: &mut impl FnMut(usize, usize) -> PairMoments) -> C {
@@ -964,6 +985,9 @@ impl<'a> VectorPotential<'a> {
                     &k,
                 );
             }
+        }
+        if let Some(w) = self.walls {
+            s += w.interaction(m, n);
         }
         s
     }
@@ -1025,6 +1049,9 @@ impl EntrySource<C> for VectorPotential<'_> {
                     for (lq, ln, cq) in &hn[..*nn] {
                         s += combine(lm, *cp, ln, *cq, &pairs[lp * nc + lq]);
                     }
+                }
+                if let Some(w) = self.walls {
+                    s += w.interaction(rows[a], cols[b]);
                 }
                 out[a + b * m] = s;
             }

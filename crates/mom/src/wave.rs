@@ -90,7 +90,8 @@ pub struct FrequencyResult {
     pub seconds: [f64; 3],
     /// The balance length ℓ (m).
     pub balance_length: f64,
-    /// Solutions `x` of the scaled system per port (for current pictures: `I = S x`).
+    /// Per port, the current coefficients `I = S x` (A/m per function) with 1 V across that
+    /// port and the other ports shorted (for current pictures; empty when dropped).
     pub currents: Vec<Vec<C>>,
 }
 
@@ -139,11 +140,6 @@ impl<'a> WaveProblem<'a> {
         &self.projector
     }
 
-    /// Currents `I = S x` (A/m per function) from a solution of the scaled system.
-    pub fn currents(&self, x: &[C], alpha: C) -> Vec<C> {
-        apply_s(&self.projector, alpha, x)
-    }
-
     /// Solves at `frequency_hz` with the kernel `green` (wavenumber `green.k()`) of a medium of
     /// wave impedance `eta` (Ω). `progress(stage)` reports the stages.
     ///
@@ -161,7 +157,8 @@ impl<'a> WaveProblem<'a> {
         let t0 = Instant::now();
         let k = green.k();
         let inter = Interactions::new(self.panels, green, opts.hmatrix.tolerance);
-        let asrc = VectorPotential::new(&inter, self.basis);
+        let walls = green.feed_ground().map(|zg| crate::feedwall::FeedWalls::new(self.basis, zg, k));
+        let asrc = VectorPotential::with_walls(&inter, self.basis, walls.as_ref());
         let psrc = ScalarPotential::new(&inter);
         let ell = balance_length(&asrc, &psrc, self.basis);
         progress("vector potential");
