@@ -9,7 +9,7 @@ set -euo pipefail
 cd "$(dirname "$0")/.."
 cargo build --release --quiet
 out=${1:-out/coupler}
-cell=${CELL:-0.0215}
+cell=${CELL:-0.03}
 mkdir -p "$out"
 one="$out/one.toml"
 sweep="$out/sweep.toml"
