@@ -73,7 +73,7 @@
 //! input the result is replaced by `½ (M + Mᵀ)` (a change of the order of the rounding error
 //! plus the tolerated departure of `AD − BC` from 1), so it is exactly symmetric.
 
-use crate::network::{self, NetMatrix, NetworkError};
+use crate::network::{self, NetMatrix, NetworkError, exactly_symmetric, symmetrize};
 use rafter_linalg::{Complex64, DenseMatrix, LinalgError, Scalar};
 use std::f64::consts::PI;
 
@@ -560,23 +560,6 @@ fn invert(m: &NetMatrix, what: &'static str, hint: &'static str) -> Result<NetMa
             DeembedError::NoPhysicalSolution("unexpected reference-impedance error".into())
         }
     })
-}
-
-fn exactly_symmetric(m: &NetMatrix) -> bool {
-    let n = m.nrows();
-    m.ncols() == n && (0..n).all(|j| (0..j).all(|i| m.get(i, j) == m.get(j, i)))
-}
-
-/// `W ← ½ (W + Wᵀ)`; exactly symmetric since floating-point addition commutes.
-fn symmetrize(w: &mut NetMatrix) {
-    let n = w.nrows();
-    for j in 0..n {
-        for i in 0..j {
-            let v = (w.get(i, j) + w.get(j, i)).scale(0.5);
-            w.set(i, j, v);
-            w.set(j, i, v);
-        }
-    }
 }
 
 #[cfg(test)]

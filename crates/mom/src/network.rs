@@ -322,13 +322,13 @@ fn inverse(a: &NetMatrix, what: &'static str, hint: &'static str) -> Result<NetM
     Ok(w)
 }
 
-fn exactly_symmetric(m: &NetMatrix) -> bool {
+pub(crate) fn exactly_symmetric(m: &NetMatrix) -> bool {
     let n = m.nrows();
     m.ncols() == n && (0..n).all(|j| (0..j).all(|i| m.get(i, j) == m.get(j, i)))
 }
 
 /// `W ← ½ (W + Wᵀ)`; exactly symmetric since floating-point addition commutes.
-fn symmetrize(w: &mut NetMatrix) {
+pub(crate) fn symmetrize(w: &mut NetMatrix) {
     let n = w.nrows();
     for j in 0..n {
         for i in 0..j {
