@@ -176,6 +176,8 @@ impl<T: Scalar> HMatrix<T> {
         progress: Option<&(dyn Fn(usize, usize) + Sync)>,
         symmetric: bool,
     ) -> Result<Self, HError> {
+        // Every request settles the vector state the dense kernels leave behind.
+        let src = &rafter_linalg::Settled(src);
         let adm = Admissibility::new(options.eta)?;
         let block_tree = BlockTree::new(&row_tree, &col_tree, &adm);
         let stored = |b: &&Block| !symmetric || row_tree.node(b.row).start <= col_tree.node(b.col).start;

@@ -50,6 +50,7 @@ pub fn assemble_dense<T: Scalar, S: EntrySource<T> + ?Sized>(src: &S) -> Result<
         dense_bytes::<T>(m, n),
         "verify on a smaller layout or a coarser mesh; the compressed path does not need it",
     )?;
+    let src = &rafter_linalg::Settled(src);
     let mut data = vec![T::zero(); m * n];
     let rows: Vec<usize> = (0..m).collect();
     let panel = 16usize;

@@ -24,7 +24,7 @@ pub mod source;
 pub use dense::{DenseLu, DenseMatrix};
 pub use num_complex::Complex64;
 pub use scalar::Scalar;
-pub use source::{CountingSource, EntrySource};
+pub use source::{CountingSource, EntrySource, Settled, settle_vector_state};
 
 /// Errors of the dense kernels.
 #[derive(Debug, thiserror::Error, Clone, PartialEq)]

@@ -85,3 +85,44 @@ impl<T: Scalar, S: EntrySource<T>> EntrySource<T> for CountingSource<S> {
         self.inner.fill_block(rows, cols, out)
     }
 }
+
+/// Clears the upper halves of the vector registers (`vzeroupper`) on a CPU with AVX; a no-op
+/// elsewhere.
+///
+/// faer's wide-vector kernels (GEMM, QR, SVD in the recompression), run by the same threads
+/// between entry requests, can leave those registers in use ("dirty"); scalar code that
+/// follows — the kernel evaluations of an entry source, libm's exp/sin/cos — then runs with a
+/// false dependency on every instruction: measured 2–3× slower on this machine (the penalty of
+/// mixing legacy SSE with dirty upper AVX state: Intel 64 and IA-32 Architectures Optimization
+/// Reference Manual, "Mixing AVX code with SSE code" — from memory).
+#[inline]
+pub fn settle_vector_state() {
+    #[cfg(target_arch = "x86_64")]
+    if std::arch::is_x86_feature_detected!("avx") {
+        // SAFETY: the CPU has AVX (checked above), so the instruction exists; it only zeroes
+        // bits 128 and up of the vector registers, which `clobber_abi("C")` declares clobbered
+        // (as for a call: no value lives in them across it).
+        unsafe { std::arch::asm!("vzeroupper", clobber_abi("C")) }
+    }
+}
+
+/// Wraps a source so that every request first calls [`settle_vector_state`]: the engine reads
+/// every source through it, so that no source pays for the engine's dense kernels.
+pub struct Settled<'a, S: ?Sized>(pub &'a S);
+
+impl<T: Scalar, S: EntrySource<T> + ?Sized> EntrySource<T> for Settled<'_, S> {
+    fn nrows(&self) -> usize {
+        self.0.nrows()
+    }
+    fn ncols(&self) -> usize {
+        self.0.ncols()
+    }
+    fn entry(&self, i: usize, j: usize) -> T {
+        settle_vector_state();
+        self.0.entry(i, j)
+    }
+    fn fill_block(&self, rows: &[usize], cols: &[usize], out: &mut [T]) {
+        settle_vector_state();
+        self.0.fill_block(rows, cols, out)
+    }
+}

@@ -1001,11 +1001,9 @@ impl EntrySource<C> for VectorPotential<'_> {
         self.basis.functions.len()
     }
     fn entry(&self, i: usize, j: usize) -> C {
-        clean_vector_state();
         self.entry_with(i, j, &mut |p, q| self.inter.moments(p, q, true))
     }
     fn fill_block(&self, rows: &[usize], cols: &[usize], out: &mut [C]) {
-        clean_vector_state();
         // Every panel pair of the block once: (panels of the rows) × (panels of the columns),
         // all needed, in a flat table by local panel index.
         let panels_of = |fs: &[usize]| {
@@ -1081,36 +1079,15 @@ impl EntrySource<C> for ScalarPotential<'_> {
         self.area.len()
     }
     fn entry(&self, p: usize, q: usize) -> C {
-        clean_vector_state();
         self.inter.moments(p, q, false).k00 / (self.area[p] * self.area[q])
     }
     fn fill_block(&self, rows: &[usize], cols: &[usize], out: &mut [C]) {
-        clean_vector_state();
         let m = rows.len();
         for (b, &q) in cols.iter().enumerate() {
             for (a, &p) in rows.iter().enumerate() {
                 out[a + b * m] = self.inter.moments(p, q, false).k00 / (self.area[p] * self.area[q]);
             }
         }
-    }
-}
-
-/// Clears the upper halves of the vector registers (`vzeroupper`) on a CPU with AVX.
-///
-/// The wide-vector kernels of the dense linear algebra, run by the same threads between block
-/// fills, can leave them in use ("dirty"); the scalar code of the kernel evaluations (SSE, and
-/// the AVX routines of the maths library) then runs with a false dependency on every
-/// instruction, measured at 2–3× slower here (the penalty of mixing legacy SSE with dirty
-/// upper AVX state: Intel 64 and IA-32 Architectures Optimization Reference Manual, "Mixing
-/// AVX code with SSE code" — from memory). Called once per request of an entry source.
-#[inline]
-fn clean_vector_state() {
-    #[cfg(target_arch = "x86_64")]
-    if std::arch::is_x86_feature_detected!("avx") {
-        // SAFETY: the CPU has AVX (checked above), so the instruction exists; it only zeroes
-        // bits 128 and up of the vector registers, which `clobber_abi("C")` declares clobbered
-        // (as for a call: no value lives in them across it).
-        unsafe { std::arch::asm!("vzeroupper", clobber_abi("C")) }
     }
 }
 
