@@ -64,6 +64,13 @@ impl Medium {
                 layout.file
             );
         }
+        if s.ground_above.is_some() && s.ground_below.is_none() {
+            bail!(
+                "{}: stackup.layers: a ground above the conductors with none below\n  hint: `rafter sweep` \
+                 takes no ground, one ground below, or two grounds; list the layers the other way up",
+                layout.file
+            );
+        }
         Ok(Self { eps_r, loss_tangent, grounds: (s.ground_below, s.ground_above) })
     }
 
@@ -85,7 +92,7 @@ impl Medium {
         Ok(match self.grounds {
             (None, None) => Box::new(ImageGreen { k, planes: Planes::Open }),
             (Some(z), None) => Box::new(ImageGreen { k, planes: Planes::Below(z) }),
-            (None, Some(_)) => bail!("a ground above with none below is not supported; flip the stack-up"),
+            (None, Some(_)) => bail!("a ground above with none below (refused by `Medium::of`)"),
             (Some(z0), Some(z1)) => Box::new(
                 PlateGreen::new(k, z0, z1, heights, 1.01 * extent + 1e-9, tol)
                     .with_context(|| format!("the stripline Green's function at {f:.6e} Hz"))?,
